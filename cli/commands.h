@@ -1,0 +1,14 @@
+#pragma once
+// Each subcommand registers itself on the application; its callback throws frugal::UserError for
+// anything the user can fix.
+
+namespace CLI {
+class App;
+}
+
+namespace frugal::cli {
+
+void add_phantoms_command(CLI::App& app);
+void add_agree_command(CLI::App& app);
+
+}  // namespace frugal::cli

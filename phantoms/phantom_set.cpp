@@ -1,0 +1,215 @@
+#include "phantoms/phantom_set.h"
+
+#include <opencv2/core/version.hpp>
+
+#include <chrono>
+#include <condition_variable>
+#include <cstdio>
+#include <exception>
+#include <filesystem>
+#include <fstream>
+#include <map>
+#include <memory>
+#include <mutex>
+#include <thread>
+#include <vector>
+
+#include <nlohmann/json.hpp>
+#include <yaml-cpp/yaml.h>
+
+#include "frugal_version.h"
+#include "phantoms/nifti_io.h"
+#include "phantoms/phantom.h"
+#include "phantoms/preview.h"
+#include "phantoms/scenario_yaml.h"
+#include "phantoms/truth_tables.h"
+#include "phantoms/user_error.h"
+#include "phantoms/yaml_to_json.h"
+
+namespace frugal {
+
+namespace fs = std::filesystem;
+
+std::string PhantomSetOptions::validate() const {
+  if (out_dir.empty()) return "--out is empty; give a folder for the phantom set";
+  if (count < 1 || count > 10'000'000) return "--count is " + std::to_string(count) + "; allowed 1..10000000";
+  if (first < 0) return "--first is " + std::to_string(first) + "; allowed 0 or more";
+  if (rescans < 0 || rescans > 20) return "--rescans is " + std::to_string(rescans) + "; allowed 0..20";
+  if (threads < 1 || threads > 256) return "--threads is " + std::to_string(threads) + "; allowed 1..256";
+  if (preview_tiles < 0 || preview_tiles > 100) return "--preview-tiles is " + std::to_string(preview_tiles) + "; allowed 0..100";
+  if (static_cast<long long>(first) + count > 99'999'999LL) return "--first + --count must stay below 100000000";
+  return {};
+}
+
+namespace {
+
+// A text file written under a temporary name and moved into place when complete.
+class WholeFile {
+ public:
+  explicit WholeFile(fs::path path) : path_(std::move(path)), temporary_(path_.string() + ".partial") {
+    stream_.open(temporary_, std::ios::binary | std::ios::trunc);
+    if (!stream_) throw UserError(temporary_.string() + ": cannot open for writing");
+  }
+  void write(const std::string& text) { stream_ << text; }
+  void commit() {
+    stream_.close();
+    if (!stream_) throw UserError(temporary_.string() + ": writing failed (disk full?)");
+    fs::rename(temporary_, path_);
+  }
+
+ private:
+  fs::path path_;
+  fs::path temporary_;
+  std::ofstream stream_;
+};
+
+std::string subject_stem(int subject, int rescan) {
+  char text[48];
+  if (rescan == 0)
+    std::snprintf(text, sizeof(text), "subject_%06d", subject);
+  else
+    std::snprintf(text, sizeof(text), "subject_%06d_rescan%d", subject, rescan);
+  return text;
+}
+
+struct FinishedSubject {
+  std::string truth_rows;
+  std::string object_rows;
+  std::unique_ptr<Subject> preview;  // kept only while the montage still wants tiles
+};
+
+nlohmann::json manifest_json(const ScenarioOptions& scenario, const std::string& scenario_file,
+                             const PhantomSetOptions& options) {
+  nlohmann::json manifest;
+  manifest["tool"] = "frugal";
+  manifest["version"] = kVersion;
+  manifest["schema_version"] = kOutputSchemaVersion;
+  manifest["kind"] = "phantom_set";
+  manifest["scenario_file"] = scenario_file;
+  manifest["scenario"] = yaml_to_json(YAML::Load(scenario_to_yaml(scenario)));
+  manifest["seed"] = options.seed;
+  manifest["first"] = options.first;
+  manifest["count"] = options.count;
+  manifest["rescans"] = options.rescans;
+  manifest["dims"] = scenario.geometry.dims;
+  manifest["label_codes"] = {{"0", "outside"}, {"1", "field"}, {"2", "lesion"}, {"3", "dot_distractor"}, {"4", "line_distractor"}};
+  manifest["files"] = {{"truth", "truth.csv"},      {"objects", "objects.csv"},  {"preview", "preview.png"},
+                       {"scenario", "scenario.resolved.yaml"}, {"images", "images/"}, {"labels", "labels/"}};
+  manifest["libraries"] = {{"opencv", CV_VERSION}};
+  manifest["caution"] =
+      "Synthetic phantoms. Results guide the design of a labelling plan and the choice of a method; they do not "
+      "validate a method for clinical use or replace a pilot on real data, ethics approval or clinical judgement.";
+  return manifest;
+}
+
+}  // namespace
+
+PhantomSetSummary write_phantom_set(const ScenarioOptions& scenario, const std::string& scenario_file,
+                                    const PhantomSetOptions& options, const std::function<void(long long)>& progress) {
+  if (std::string error = options.validate(); !error.empty()) throw UserError(error);
+  if (std::string error = scenario.validate(); !error.empty()) throw UserError(scenario_file + ": " + error);
+  const auto start = std::chrono::steady_clock::now();
+  const fs::path root(options.out_dir);
+  if (fs::exists(root / "manifest.json") && !options.overwrite)
+    throw UserError(options.out_dir + ": already holds a finished phantom set (manifest.json); choose another folder "
+                    "or pass --overwrite");
+  std::error_code made;
+  fs::create_directories(root / "images", made);
+  fs::create_directories(root / "labels", made);
+  if (made) throw UserError(options.out_dir + ": cannot create the output folders: " + made.message());
+
+  WholeFile truth_file(root / "truth.csv");
+  WholeFile objects_file(root / "objects.csv");
+  truth_file.write(csv_version_comment("phantom truth") + truth_csv_header());
+  objects_file.write(csv_version_comment("phantom objects") + objects_csv_header());
+  Montage montage(options.preview_tiles);
+
+  std::mutex mutex;
+  std::condition_variable changed;
+  std::map<int, FinishedSubject> ready;
+  int next_task = 0, next_write = 0;
+  std::exception_ptr failure;
+  const int window = 4 * options.threads;  // bounds memory: workers never run further ahead
+
+  const auto work = [&] {
+    while (true) {
+      int n = 0;
+      {
+        std::unique_lock<std::mutex> lock(mutex);
+        changed.wait(lock, [&] { return failure || next_task >= options.count || next_task - next_write < window; });
+        if (failure || next_task >= options.count) return;
+        n = next_task++;
+      }
+      try {
+        FinishedSubject finished;
+        const int subject = options.first + n;
+        for (int rescan = 0; rescan <= options.rescans; ++rescan) {
+          Subject generated = generate_subject(scenario, options.seed, subject, rescan);
+          const std::string stem = subject_stem(subject, rescan);
+          const std::string image_file = "images/" + stem + ".nii.gz", labels_file = "labels/" + stem + ".nii.gz";
+          write_nifti(generated.image, (root / image_file).string());
+          write_nifti(generated.labels, (root / labels_file).string());
+          finished.truth_rows += truth_csv_row(generated.truth, image_file, labels_file);
+          finished.object_rows += objects_csv_rows(generated.truth);
+          if (rescan == 0 && n < options.preview_tiles) finished.preview = std::make_unique<Subject>(std::move(generated));
+        }
+        std::lock_guard<std::mutex> lock(mutex);
+        ready.emplace(n, std::move(finished));
+      } catch (...) {
+        std::lock_guard<std::mutex> lock(mutex);
+        if (!failure) failure = std::current_exception();
+      }
+      changed.notify_all();
+    }
+  };
+
+  std::vector<std::thread> workers;
+  for (int t = 0; t < options.threads; ++t) workers.emplace_back(work);
+  try {
+    while (next_write < options.count) {
+      FinishedSubject finished;
+      {
+        std::unique_lock<std::mutex> lock(mutex);
+        changed.wait(lock, [&] { return failure || ready.count(next_write) != 0; });
+        if (failure) break;
+        finished = std::move(ready.at(next_write));
+        ready.erase(next_write);
+      }
+      truth_file.write(finished.truth_rows);
+      objects_file.write(finished.object_rows);
+      if (finished.preview) montage.add(*finished.preview);
+      {
+        std::lock_guard<std::mutex> lock(mutex);
+        ++next_write;
+      }
+      changed.notify_all();
+      if (progress) progress(next_write);
+    }
+  } catch (...) {
+    std::lock_guard<std::mutex> lock(mutex);
+    if (!failure) failure = std::current_exception();
+  }
+  changed.notify_all();
+  for (std::thread& worker : workers) worker.join();
+  if (failure) std::rethrow_exception(failure);
+
+  truth_file.commit();
+  objects_file.commit();
+  if (options.preview_tiles > 0) montage.write_png((root / "preview.png").string());
+  WholeFile scenario_copy(root / "scenario.resolved.yaml");
+  scenario_copy.write("# frugal " + std::string(kVersion) + ", resolved scenario, schema " +
+                      std::to_string(kOutputSchemaVersion) + "\n" + scenario_to_yaml(scenario));
+  scenario_copy.commit();
+  WholeFile manifest(root / "manifest.json");
+  manifest.write(manifest_json(scenario, scenario_file, options).dump(2) + "\n");
+  manifest.commit();
+
+  PhantomSetSummary summary;
+  summary.subjects = options.count;
+  summary.files = options.count * (options.rescans + 1) * 2 + 5;
+  summary.seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
+  summary.manifest_path = (root / "manifest.json").string();
+  return summary;
+}
+
+}  // namespace frugal

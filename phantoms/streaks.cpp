@@ -1,0 +1,298 @@
+#include "phantoms/streaks.h"
+
+#include <algorithm>
+#include <cmath>
+
+#include "phantoms/image_ops.h"
+#include "phantoms/object_rendering.h"
+
+namespace frugal {
+
+namespace {
+
+using Vec = std::array<double, 3>;
+
+double smoothstep(double edge0, double edge1, double x) {
+  const double t = std::clamp((x - edge0) / (edge1 - edge0), 0.0, 1.0);
+  return t * t * (3.0 - 2.0 * t);
+}
+
+// The head: an ellipsoid (an ellipse in 2D) centred on the image.
+struct Head {
+  Vec semi_axes{};
+  bool flat = true;
+  // Normalised ellipsoidal radius: 1 on the boundary.
+  double radius(const Vec& p) const {
+    double q = 0.0;
+    for (std::size_t axis = 0; axis < (flat ? 2U : 3U); ++axis) q += (p[axis] / semi_axes[axis]) * (p[axis] / semi_axes[axis]);
+    return std::sqrt(q);
+  }
+};
+
+CoarseGrid random_grid(const Shape& fine, int step, RandomStream& random) {
+  CoarseGrid grid;
+  grid.step = std::max(1, step);
+  grid.shape = coarse_extent(fine, grid.step);
+  grid.values.resize(grid.shape.voxel_count());
+  for (float& value : grid.values) value = static_cast<float>(random.uniform(-1.0, 1.0));
+  return grid;
+}
+
+// Tissue intensity at normalised radius r (perturbed), with two ventricles near the centre.
+double tissue(const StreaksOptions& s, const Head& head, const Vec& p, double wobble) {
+  const double r = head.radius(p) + 0.05 * wobble;
+  double value = s.white_matter + (s.grey_matter - s.white_matter) * smoothstep(0.70, 0.76, r);
+  value += (s.csf - s.grey_matter) * smoothstep(0.88, 0.93, r);
+  for (double side : {-1.0, 1.0}) {
+    const Vec c{side * 0.12 * head.semi_axes[0], -0.05 * head.semi_axes[1], 0.0};
+    const Vec a{0.07 * head.semi_axes[0], 0.22 * head.semi_axes[1], 0.15 * head.semi_axes[2]};
+    double q = 0.0;
+    for (std::size_t axis = 0; axis < (head.flat ? 2U : 3U); ++axis) q += std::pow((p[axis] - c[axis]) / a[axis], 2.0);
+    value += (s.csf - value) * (1.0 - smoothstep(0.8, 1.2, std::sqrt(q)));
+  }
+  return value;
+}
+
+Vec random_direction(const OrientationOptions& o, bool flat, RandomStream& random) {
+  if (flat) {
+    double angle = 0.0;
+    if (o.isotropic) {
+      angle = random.uniform(0.0, M_PI);
+    } else {
+      angle = std::atan2(o.axis[1], o.axis[0]) + random.normal() * o.spread_deg * M_PI / 180.0;
+    }
+    return {std::cos(angle), std::sin(angle), 0.0};
+  }
+  Vec d{};
+  if (o.isotropic) {
+    double norm = 0.0;
+    do {
+      for (double& c : d) c = random.normal();
+      norm = std::sqrt(d[0] * d[0] + d[1] * d[1] + d[2] * d[2]);
+    } while (norm < 1e-9);
+    for (double& c : d) c /= norm;
+    return d;
+  }
+  // Tilt the preferred axis by a normal angle towards a random perpendicular direction.
+  Vec axis = o.axis;
+  const double n = std::sqrt(axis[0] * axis[0] + axis[1] * axis[1] + axis[2] * axis[2]);
+  for (double& c : axis) c /= n;
+  Vec helper = std::abs(axis[0]) < 0.9 ? Vec{1, 0, 0} : Vec{0, 1, 0};
+  Vec e1{axis[1] * helper[2] - axis[2] * helper[1], axis[2] * helper[0] - axis[0] * helper[2],
+         axis[0] * helper[1] - axis[1] * helper[0]};
+  const double n1 = std::sqrt(e1[0] * e1[0] + e1[1] * e1[1] + e1[2] * e1[2]);
+  for (double& c : e1) c /= n1;
+  const Vec e2{axis[1] * e1[2] - axis[2] * e1[1], axis[2] * e1[0] - axis[0] * e1[2], axis[0] * e1[1] - axis[1] * e1[0]};
+  const double phi = random.uniform(0.0, 2.0 * M_PI);
+  const double tilt = random.normal() * o.spread_deg * M_PI / 180.0;
+  for (std::size_t i = 0; i < 3; ++i)
+    d[i] = std::cos(tilt) * axis[i] + std::sin(tilt) * (std::cos(phi) * e1[i] + std::sin(phi) * e2[i]);
+  return d;
+}
+
+// Objects are kept apart through their bounding capsules (segment +- semi_long, radius semi_short).
+struct PlacedCapsule {
+  Vec a, b;
+  double radius;
+};
+
+class Placer {
+ public:
+  Placer(const Head& head, double separation_mm) : head_(head), separation_mm_(separation_mm) {}
+
+  // A uniform point inside the head shrunk to `max_radius` (normalised).
+  Vec point_in_head(double max_radius, RandomStream& random) const {
+    while (true) {
+      Vec p{};
+      for (std::size_t axis = 0; axis < 3; ++axis)
+        p[axis] = (axis == 2 && head_.flat) ? 0.0 : random.uniform(-1.0, 1.0) * head_.semi_axes[axis] * max_radius;
+      if (head_.radius(p) <= max_radius) return p;
+    }
+  }
+
+  bool fits(const Vec& centre, const Vec& direction, double half_length, double radius, double max_radius) {
+    const Vec a{centre[0] - half_length * direction[0], centre[1] - half_length * direction[1],
+                centre[2] - half_length * direction[2]};
+    const Vec b{centre[0] + half_length * direction[0], centre[1] + half_length * direction[1],
+                centre[2] + half_length * direction[2]};
+    if (head_.radius(a) > max_radius || head_.radius(b) > max_radius) return false;
+    for (const PlacedCapsule& other : placed_)
+      if (segment_distance(a, b, other.a, other.b) < radius + other.radius + separation_mm_) return false;
+    placed_.push_back({a, b, radius});
+    return true;
+  }
+
+ private:
+  const Head& head_;
+  double separation_mm_;
+  std::vector<PlacedCapsule> placed_;
+};
+
+constexpr int kPlacementTries = 200;
+constexpr double kLesionRegion = 0.82;  // lesions stay inside the white/grey matter
+constexpr double kLineRegion = 0.95;
+
+}  // namespace
+
+RestSubject draw_streaks_at_rest(const ScenarioOptions& scenario, std::uint64_t seed, int subject_index,
+                                 Confounder& confounder) {
+  const StreaksOptions& s = scenario.streaks;
+  const auto subject = static_cast<std::uint64_t>(subject_index);
+  RandomStream anatomy(seed, subject, StreamPurpose::anatomy);
+  RandomStream lesions(seed, subject, StreamPurpose::lesions);
+  RandomStream distractors(seed, subject, StreamPurpose::distractors);
+  RandomStream nuisance(seed, subject, StreamPurpose::confounder);
+
+  const bool flat = scenario.geometry.dims == 2;
+  const Shape shape = flat ? Shape{scenario.geometry.size_2d[0], scenario.geometry.size_2d[1], 1}
+                           : Shape{scenario.geometry.size_3d[0], scenario.geometry.size_3d[1], scenario.geometry.size_3d[2]};
+  const Geometry geometry = centred_geometry(shape, scenario.geometry.spacing_mm);
+
+  // The target quantity is drawn first so that a confounder can be tied to it.
+  const int drawn_count = s.count.sample(lesions);
+  const double score = draw_confounder_score(scenario.confounder, drawn_count, s.count.expected(), s.count.spread(), nuisance);
+  const double factor = std::max(0.05, 1.0 + scenario.confounder.spread * score);
+  double size_factor = 1.0;
+  confounder = Confounder{};
+  if (scenario.confounder.factor == ConfounderFactor::field_size) {
+    size_factor = std::min(factor, 1.15);  // keep the head inside the image
+    confounder.value = size_factor;
+  } else if (scenario.confounder.factor == ConfounderFactor::global_intensity) {
+    confounder.value = confounder.gain = factor;
+  }
+
+  Head head;
+  head.flat = flat;
+  const int extents[3] = {shape.x, shape.y, shape.z};
+  const double fill[3] = {0.40, 0.44, 0.40};
+  for (std::size_t axis = 0; axis < 3; ++axis)
+    head.semi_axes[axis] = fill[axis] * extents[axis] * geometry.spacing_mm[axis] * anatomy.uniform(0.9, 1.0) * size_factor;
+
+  // Tissue and bias on a coarse node grid (every second voxel), then upsampled.
+  constexpr int kNodeStep = 2;
+  const Shape nodes = coarse_extent(shape, kNodeStep);
+  const Geometry node_geometry = [&] {
+    Geometry g;
+    g.shape = nodes;
+    return g;
+  }();
+  const FloatImage wobble = upsample(random_grid(nodes, 4, anatomy), node_geometry);
+  const int bias_step = static_cast<int>(std::lround(scenario.bias_field.scale_mm / (kNodeStep * geometry.spacing_mm[0])));
+  FloatImage bias = upsample(random_grid(nodes, bias_step, anatomy), node_geometry);
+  for (float& value : bias.voxels()) value = static_cast<float>(1.0 + scenario.bias_field.amplitude * value);
+
+  CoarseGrid background{nodes, kNodeStep, std::vector<float>(nodes.voxel_count())};
+  for (int k = 0; k < nodes.z; ++k)
+    for (int j = 0; j < nodes.y; ++j)
+      for (int i = 0; i < nodes.x; ++i) {
+        const Vec p = geometry.world_mm(i * kNodeStep, j * kNodeStep, k * kNodeStep);
+        const double inside = 1.0 - smoothstep(0.985, 1.015, head.radius(p));
+        const std::size_t n = bias.index(i, j, k);
+        background.values[n] = static_cast<float>(inside * tissue(s, head, p, wobble.data()[n]) * bias.data()[n]);
+      }
+
+  RestSubject rest;
+  rest.signal = upsample(background, geometry);
+  rest.field = LabelImage(geometry, 0);
+  rest.instances = InstanceImage(geometry, 0);
+  for (int k = 0; k < shape.z; ++k)
+    for (int j = 0; j < shape.y; ++j)
+      for (int i = 0; i < shape.x; ++i)
+        rest.field.at(i, j, k) = head.radius(geometry.world_mm(i, j, k)) <= 1.0 ? 1 : 0;
+
+  const auto bias_at = [&](const Vec& p) {
+    const auto index = [&](std::size_t axis, int limit) {
+      const double v = (p[axis] - geometry.origin_mm[axis]) / (geometry.spacing_mm[axis] * kNodeStep);
+      return std::clamp(static_cast<int>(std::lround(v)), 0, limit - 1);
+    };
+    return bias.at(index(0, nodes.x), index(1, nodes.y), flat ? 0 : index(2, nodes.z));
+  };
+
+  SubjectTruth& truth = rest.truth;
+  truth.family = Family::streaks;
+  truth.confounder = confounder.value;
+  Placer placer(head, s.min_separation_mm);
+  const double slice_mm = geometry.spacing_mm[2];
+  const auto add_object = [&](ObjectKind kind, const Vec& centre, const Vec& direction, double length, double width,
+                              double contrast) {
+    ObjectRecord record;
+    record.id = static_cast<int>(truth.objects.size()) + 1;
+    record.kind = kind;
+    record.centre_mm = centre;
+    record.direction = direction;
+    record.length_mm = length;
+    record.width_mm = width;
+    record.contrast = contrast;
+    const double a = 0.5 * length, b = 0.5 * width;
+    const auto id = static_cast<std::uint16_t>(record.id);
+    const auto shown = static_cast<float>(contrast * bias_at(centre));
+    if (kind == ObjectKind::line_distractor) {
+      const double half = std::max(0.0, a - b);
+      record.volume_mm3 = flat ? (2.0 * half * width + M_PI * b * b) * slice_mm
+                               : M_PI * b * b * 2.0 * half + 4.0 / 3.0 * M_PI * b * b * b;
+      render(Capsule{centre, direction, half, b}, shown, id, rest.signal, rest.instances, &rest.field);
+    } else {
+      record.volume_mm3 = flat ? M_PI * a * b * slice_mm : 4.0 / 3.0 * M_PI * a * b * b;
+      render(Spheroid{centre, direction, a, b}, shown, id, rest.signal, rest.instances);
+    }
+    truth.objects.push_back(record);
+  };
+
+  // Lesions, optionally with a share of them in one cluster region.
+  const Vec cluster_centre = placer.point_in_head(0.6, lesions);
+  for (int n = 0; n < drawn_count; ++n) {
+    const double length = s.length_mm.sample(lesions);
+    const double width = std::min(s.width_mm.sample(lesions), length);
+    const double contrast = s.contrast.sample(lesions);
+    const Vec direction = random_direction(s.orientation, flat, lesions);
+    const bool clustered = lesions.uniform() < s.clustering.fraction;
+    bool placed = false;
+    for (int attempt = 0; attempt < kPlacementTries && !placed; ++attempt) {
+      Vec centre = placer.point_in_head(kLesionRegion, lesions);
+      if (clustered) {
+        Vec offset{};
+        do {
+          for (std::size_t axis = 0; axis < 3; ++axis)
+            offset[axis] = (axis == 2 && flat) ? 0.0 : lesions.uniform(-1.0, 1.0) * s.clustering.radius_mm;
+        } while (offset[0] * offset[0] + offset[1] * offset[1] + offset[2] * offset[2] >
+                 s.clustering.radius_mm * s.clustering.radius_mm);
+        for (std::size_t axis = 0; axis < 3; ++axis) centre[axis] = cluster_centre[axis] + offset[axis];
+      }
+      placed = placer.fits(centre, direction, 0.5 * length, 0.5 * width, kLesionRegion);
+      if (placed) add_object(ObjectKind::lesion, centre, direction, length, width, contrast);
+    }
+    if (!placed) ++truth.objects_dropped;
+  }
+
+  // Look-alikes: round dots, then long thin lines.
+  const int dot_count = s.dots.sample(distractors);
+  for (int n = 0; n < dot_count; ++n) {
+    const double diameter = s.dot_diameter_mm.sample(distractors);
+    const double contrast = s.dot_contrast.sample(distractors);
+    bool placed = false;
+    for (int attempt = 0; attempt < kPlacementTries && !placed; ++attempt) {
+      const Vec centre = placer.point_in_head(kLesionRegion, distractors);
+      placed = placer.fits(centre, {1.0, 0.0, 0.0}, 0.0, 0.5 * diameter, kLesionRegion);
+      if (placed) add_object(ObjectKind::dot_distractor, centre, {1.0, 0.0, 0.0}, diameter, diameter, contrast);
+    }
+    if (!placed) ++truth.objects_dropped;
+  }
+  const int line_count = s.lines.sample(distractors);
+  const OrientationOptions any_direction;
+  for (int n = 0; n < line_count; ++n) {
+    const double length = s.line_length_mm.sample(distractors);
+    const double width = s.line_width_mm.sample(distractors);
+    const double contrast = s.line_contrast.sample(distractors);
+    const Vec direction = random_direction(any_direction, flat, distractors);
+    bool placed = false;
+    for (int attempt = 0; attempt < kPlacementTries && !placed; ++attempt) {
+      const Vec centre = placer.point_in_head(kLineRegion, distractors);
+      placed = placer.fits(centre, direction, 0.5 * length, 0.5 * width, kLineRegion);
+      if (placed) add_object(ObjectKind::line_distractor, centre, direction, length, width, contrast);
+    }
+    if (!placed) ++truth.objects_dropped;
+  }
+  return rest;
+}
+
+}  // namespace frugal

@@ -1,0 +1,275 @@
+#include "phantoms/voids.h"
+
+#include <algorithm>
+#include <cmath>
+#include <vector>
+
+#include "phantoms/acquisition.h"
+#include "phantoms/image_ops.h"
+#include "phantoms/noise.h"
+
+namespace frugal {
+
+namespace {
+
+using Vec = std::array<double, 3>;
+
+constexpr float kAirHu = -1000.0F;
+constexpr float kScannerFloorHu = -1024.0F;  // lowest value a CT image stores
+constexpr double kVoidTexture = 0.3;         // share of the parenchymal texture kept inside voids
+
+struct Ellipsoid {
+  Vec centre{}, semi_axes{};
+  double radius(const Vec& p, bool flat) const {
+    double q = 0.0;
+    for (std::size_t axis = 0; axis < (flat ? 2U : 3U); ++axis)
+      q += std::pow((p[axis] - centre[axis]) / semi_axes[axis], 2.0);
+    return std::sqrt(q);
+  }
+};
+
+// Everything about a subject that stays fixed while its low-density region is sized.
+struct Anatomy {
+  Geometry geometry;
+  bool flat = true;
+  Ellipsoid body;
+  Ellipsoid lungs[2];
+  LabelImage field;            // 1 inside a lung
+  FloatImage texture;          // zero-mean parenchymal texture in HU
+  FloatImage lung_radius;      // normalised radius within its own lung, for the peripheral band
+  std::vector<std::size_t> field_voxels;
+  double parenchyma_hu = -850.0;
+};
+
+FloatImage smooth_noise(const Geometry& geometry, double scale_mm, RandomStream& random) {
+  FloatImage field(geometry);
+  float* values = field.data();
+  std::size_t i = 0;
+  for (; i + 1 < field.size(); i += 2) random.normal_pair(values[i], values[i + 1]);
+  if (i < field.size()) {
+    float spare = 0.0F;
+    random.normal_pair(values[i], spare);
+  }
+  const std::array<double, 3> sigma{scale_mm, scale_mm, scale_mm};
+  const double gain = gaussian_filter_noise_gain(field, sigma);
+  gaussian_filter(field, sigma);
+  const auto unit = static_cast<float>(1.0 / std::sqrt(gain));  // unit variance
+  for (float& value : field.voxels()) value *= unit;
+  return field;
+}
+
+Anatomy draw_anatomy(const ScenarioOptions& scenario, const Shape& shape, double size_factor, double shift_hu,
+                     RandomStream& random) {
+  Anatomy a;
+  a.flat = shape.z == 1;
+  a.geometry = centred_geometry(shape, scenario.geometry.spacing_mm);
+  const Vec extent{shape.x * a.geometry.spacing_mm[0], shape.y * a.geometry.spacing_mm[1],
+                   shape.z * a.geometry.spacing_mm[2]};
+  a.body.semi_axes = {0.47 * extent[0], 0.40 * extent[1], 0.48 * extent[2]};
+  for (int side = 0; side < 2; ++side) {
+    Ellipsoid& lung = a.lungs[side];
+    const double jitter = random.uniform(0.9, 1.0) * size_factor;
+    lung.centre = {(side == 0 ? -1.0 : 1.0) * 0.22 * extent[0], random.uniform(-0.02, 0.02) * extent[1], 0.0};
+    lung.semi_axes = {0.17 * extent[0] * jitter, 0.30 * extent[1] * jitter, 0.40 * extent[2] * jitter};
+  }
+  a.parenchyma_hu = scenario.voids.parenchyma_hu + shift_hu;
+  a.texture = smooth_noise(a.geometry, scenario.voids.texture_scale_mm, random);
+  for (float& value : a.texture.voxels()) value *= static_cast<float>(scenario.voids.texture_sd_hu);
+  a.field = LabelImage(a.geometry, 0);
+  a.lung_radius = FloatImage(a.geometry, 2.0F);
+  for (int k = 0; k < shape.z; ++k)
+    for (int j = 0; j < shape.y; ++j)
+      for (int i = 0; i < shape.x; ++i) {
+        const Vec p = a.geometry.world_mm(i, j, k);
+        const double r = std::min(a.lungs[0].radius(p, a.flat), a.lungs[1].radius(p, a.flat));
+        if (r > 1.0) continue;
+        a.field.at(i, j, k) = 1;
+        a.lung_radius.at(i, j, k) = static_cast<float>(r);
+        a.field_voxels.push_back(a.field.index(i, j, k));
+      }
+  return a;
+}
+
+// Paints balls of random radius at random field positions until `target` of the field is covered.
+int paint_balls(const Anatomy& a, double target, double min_radius_mm, double max_radius_mm,
+                RandomStream& random, InstanceImage& region) {
+  const auto wanted = static_cast<std::int64_t>(std::ceil(target * static_cast<double>(a.field_voxels.size())));
+  std::int64_t covered = 0;
+  int balls = 0;
+  const Geometry& g = a.geometry;
+  while (covered < wanted && balls < 100000) {
+    const std::size_t seed_voxel =
+        a.field_voxels[static_cast<std::size_t>(random.uniform_int(0, static_cast<std::int64_t>(a.field_voxels.size()) - 1))];
+    const double radius = random.uniform(min_radius_mm, max_radius_mm);
+    const int plane = g.shape.x * g.shape.y;
+    const int ck = static_cast<int>(seed_voxel / static_cast<std::size_t>(plane));
+    const int cj = static_cast<int>((seed_voxel % static_cast<std::size_t>(plane)) / static_cast<std::size_t>(g.shape.x));
+    const int ci = static_cast<int>(seed_voxel % static_cast<std::size_t>(g.shape.x));
+    const int ri = static_cast<int>(std::ceil(radius / g.spacing_mm[0]));
+    const int rj = static_cast<int>(std::ceil(radius / g.spacing_mm[1]));
+    const int rk = a.flat ? 0 : static_cast<int>(std::ceil(radius / g.spacing_mm[2]));
+    for (int k = std::max(0, ck - rk); k <= std::min(g.shape.z - 1, ck + rk); ++k)
+      for (int j = std::max(0, cj - rj); j <= std::min(g.shape.y - 1, cj + rj); ++j)
+        for (int i = std::max(0, ci - ri); i <= std::min(g.shape.x - 1, ci + ri); ++i) {
+          const double dx = (i - ci) * g.spacing_mm[0], dy = (j - cj) * g.spacing_mm[1], dz = (k - ck) * g.spacing_mm[2];
+          if (dx * dx + dy * dy + dz * dz > radius * radius) continue;
+          if (a.field.at(i, j, k) == 0 || region.at(i, j, k) != 0) continue;
+          region.at(i, j, k) = 1;
+          ++covered;
+        }
+    ++balls;
+  }
+  return balls;
+}
+
+// Marks the `target` share of field voxels with the highest score.
+void mark_top_share(const Anatomy& a, const FloatImage& score, double target, InstanceImage& region) {
+  const auto wanted = static_cast<std::size_t>(std::llround(target * static_cast<double>(a.field_voxels.size())));
+  if (wanted == 0) return;
+  std::vector<std::pair<float, std::size_t>> ranked;
+  ranked.reserve(a.field_voxels.size());
+  for (std::size_t v : a.field_voxels) ranked.emplace_back(score.data()[v], v);
+  // Ties are broken by voxel index, so the region is exactly the requested size.
+  std::nth_element(ranked.begin(), ranked.begin() + static_cast<std::ptrdiff_t>(wanted - 1), ranked.end(),
+                   [](const auto& x, const auto& y) { return x.first > y.first || (x.first == y.first && x.second < y.second); });
+  for (std::size_t n = 0; n < wanted; ++n) region.data()[ranked[n].second] = 1;
+}
+
+struct PatternFields {
+  FloatImage diffuse;  // broad smooth field for diffuse thinning
+  FloatImage band;     // lung radius with a mild wobble for the peripheral band
+};
+
+// The region for a given extent; the same `random` state gives nested regions as target grows.
+int build_region(const Anatomy& a, VoidPattern pattern, double target, const PatternFields& fields,
+                 RandomStream random, InstanceImage& region) {
+  std::fill(region.voxels().begin(), region.voxels().end(), 0);
+  const double lung_scale = std::min(a.lungs[0].semi_axes[0], a.lungs[0].semi_axes[1]);
+  switch (pattern) {
+    case VoidPattern::scattered_holes:
+      return paint_balls(a, target, 1.0, 2.5, random, region);
+    case VoidPattern::confluent_spaces:
+      return paint_balls(a, target, 0.15 * lung_scale, 0.35 * lung_scale, random, region);
+    case VoidPattern::diffuse_thinning:
+      mark_top_share(a, fields.diffuse, target, region);
+      return 0;
+    case VoidPattern::peripheral_band:
+      mark_top_share(a, fields.band, target, region);
+      return 0;
+  }
+  return 0;
+}
+
+FloatImage render_signal(const Anatomy& a, const VoidsOptions& v, VoidPattern pattern, const InstanceImage& region) {
+  FloatImage signal(a.geometry, kAirHu);
+  const float void_hu = static_cast<float>(v.void_hu.at(pattern));
+  for (int k = 0; k < a.geometry.shape.z; ++k)
+    for (int j = 0; j < a.geometry.shape.y; ++j)
+      for (int i = 0; i < a.geometry.shape.x; ++i) {
+        const std::size_t n = signal.index(i, j, k);
+        if (a.field.data()[n] != 0) {
+          const float texture = a.texture.data()[n];
+          signal.data()[n] = region.data()[n] != 0 ? void_hu + static_cast<float>(kVoidTexture) * texture
+                                                   : static_cast<float>(a.parenchyma_hu) + texture;
+        } else if (a.body.radius(a.geometry.world_mm(i, j, k), a.flat) <= 1.0) {
+          signal.data()[n] = static_cast<float>(v.body_hu);
+        }
+      }
+  return signal;
+}
+
+}  // namespace
+
+double densitometry(const FloatImage& image, const LabelImage& labels, double threshold_hu) {
+  std::int64_t field = 0, below = 0;
+  const auto threshold = static_cast<float>(threshold_hu);
+  for (std::size_t v = 0; v < image.size(); ++v) {
+    if (labels.data()[v] < kField) continue;
+    ++field;
+    below += image.data()[v] < threshold ? 1 : 0;
+  }
+  return field > 0 ? static_cast<double>(below) / static_cast<double>(field) : 0.0;
+}
+
+Subject generate_voids(const ScenarioOptions& scenario, std::uint64_t seed, int subject_index, int rescan) {
+  const VoidsOptions& v = scenario.voids;
+  const auto subject = static_cast<std::uint64_t>(subject_index);
+  RandomStream anatomy_random(seed, subject, StreamPurpose::anatomy);
+  RandomStream pattern_random(seed, subject, StreamPurpose::pattern);
+  RandomStream nuisance(seed, subject, StreamPurpose::confounder);
+
+  const bool flat = scenario.geometry.dims == 2;
+  const Shape shape = flat ? Shape{scenario.geometry.size_2d[0], scenario.geometry.size_2d[1], 1}
+                           : Shape{scenario.geometry.size_3d[0], scenario.geometry.size_3d[1], scenario.geometry.size_3d[2]};
+
+  const VoidPattern pattern =
+      v.patterns[static_cast<std::size_t>(pattern_random.uniform_int(0, static_cast<std::int64_t>(v.patterns.size()) - 1))];
+  const double target = v.target.sample(pattern_random);
+  const double score = draw_confounder_score(scenario.confounder, target, v.target.expected(), v.target.spread(), nuisance);
+  Confounder confounder;
+  double size_factor = 1.0, shift_hu = 0.0;
+  if (scenario.confounder.factor == ConfounderFactor::field_size) {
+    size_factor = std::clamp(1.0 + scenario.confounder.spread * score, 0.5, 1.1);
+    confounder.value = size_factor;
+  } else if (scenario.confounder.factor == ConfounderFactor::global_intensity) {
+    shift_hu = scenario.confounder.spread * score;  // e.g. a different inspiration level
+    confounder.value = shift_hu;
+  } else {
+    confounder.value = 0.0;
+  }
+
+  const Anatomy anatomy = draw_anatomy(scenario, shape, size_factor, shift_hu, anatomy_random);
+  PatternFields fields;
+  fields.diffuse = smooth_noise(anatomy.geometry, 6.0, anatomy_random);
+  fields.band = anatomy.lung_radius;
+  {
+    const FloatImage wobble = smooth_noise(anatomy.geometry, 8.0, anatomy_random);
+    for (std::size_t n = 0; n < fields.band.size(); ++n) fields.band.data()[n] += 0.04F * wobble.data()[n];
+  }
+
+  InstanceImage region(anatomy.geometry, 0);
+  const RandomStream region_random = pattern_random;  // common random numbers while sizing
+  const auto acquire_with = [&](double extent, int for_rescan, RestSubject& rest) {
+    rest.truth.count = build_region(anatomy, pattern, extent, fields, region_random, region);
+    rest.signal = render_signal(anatomy, v, pattern, region);
+    rest.field = anatomy.field;
+    rest.instances = region;
+    apply_pose(rest, rescan_pose(scenario, seed, subject_index, for_rescan), kAirHu);
+    RandomStream noise(seed, subject, StreamPurpose::noise, static_cast<std::uint64_t>(for_rescan));
+    acquire(rest.signal, scenario, 1.0, noise);
+    for (float& value : rest.signal.voxels()) value = std::max(value, kScannerFloorHu);
+  };
+
+  double extent = target;
+  if (v.target_kind == VoidsTarget::densitometry) {
+    // Bisection on the extent of the region until the first acquisition's densitometry matches
+    // the target; rescans reuse that extent (same anatomy and region).
+    double low = 0.0, high = 0.95;
+    for (int iteration = 0; iteration < 16; ++iteration) {
+      const double middle = 0.5 * (low + high);
+      RestSubject trial;
+      acquire_with(middle, 0, trial);
+      (densitometry(trial.signal, trial.field, v.threshold_hu) < target ? low : high) = middle;
+    }
+    extent = 0.5 * (low + high);
+  }
+
+  RestSubject rest;
+  acquire_with(extent, rescan, rest);
+  Subject result;
+  rest.truth.family = Family::voids;
+  rest.truth.subject = subject_index;
+  rest.truth.rescan = rescan;
+  rest.truth.pattern = to_string(pattern);
+  rest.truth.confounder = confounder.value;
+  const int reference_slice = flat ? 0 : (scenario.geometry.reference_slice >= 0 ? scenario.geometry.reference_slice : shape.z / 2);
+  result.labels = finish_truth(rest, rest.truth, reference_slice);
+  result.truth = rest.truth;
+  result.truth.burden_mm3 = result.truth.affected_fraction * result.truth.field_volume_mm3;
+  result.truth.count_reference_slice = 0;
+  result.truth.densitometry = densitometry(rest.signal, result.labels, v.threshold_hu);
+  result.image = std::move(rest.signal);
+  return result;
+}
+
+}  // namespace frugal
