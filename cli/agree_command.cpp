@@ -179,7 +179,7 @@ Report run_icc(const measure::RatingsTable& table, const AgreeOptions& options) 
        << number(a.within_subjects) << ", raters " << number(a.between_raters) << ", residual "
        << number(a.residual) << "\n\n"
        << pad("Shrout-Fleiss", 15) << pad("McGraw-Wong", 13) << pad("model", 54) << pad("ICC", 9)
-       << pad(percent(options.confidence) + " interval", 20) << pad("F", 10) << pad("df1", 6) << pad("df2", 9)
+       << pad(percent(options.confidence) + " interval", 20) << pad("F", 10) << pad("df1", 6) << pad("df2", 6)
        << "p\n";
   json forms = json::array();
   for (const measure::IccEstimate& e : result.estimates) {
@@ -196,7 +196,7 @@ Report run_icc(const measure::RatingsTable& table, const AgreeOptions& options) 
     text << pad(measure::shrout_fleiss_name(e.form), 15) << pad(measure::mcgraw_wong_name(e.form), 13)
          << pad(measure::icc_description(e.form), 54) << pad(number(e.value), 9)
          << pad(interval(e.lower, e.upper), 20) << pad(number(e.f_statistic, 3), 10)
-         << pad(number(e.df1, 0), 6) << pad(number(e.df2, 2), 9) << p_value(e.p_value) << "\n";
+         << pad(number(e.df1, 0), 6) << pad(number(e.df2, 0), 6) << p_value(e.p_value) << "\n";
   }
   report.result["forms"] = forms;
   text << "\nIntervals from the F distribution (Shrout & Fleiss 1979; McGraw & Wong 1996); the\n"
@@ -286,11 +286,11 @@ Report run_fleiss(const measure::RatingsTable& table, const AgreeOptions& option
   std::ostringstream text;
   text << "Fleiss' kappa, " << table_summary(table) << "\n"
        << "categories: " << category_text(categories) << " (" << origin << ")\n\n"
-       << pad("kappa", 28) << number(result.kappa) << "\n"
-       << pad("observed agreement", 28) << number(result.observed_agreement) << "\n"
-       << pad("chance agreement", 28) << number(result.expected_agreement) << "\n"
-       << pad("standard error if kappa = 0", 28) << number(result.null_standard_error) << "\n"
-       << pad("test of kappa = 0", 28) << "z = " << number(result.z, 3) << ", p = " << p_value(result.p_value)
+       << pad("kappa", 30) << number(result.kappa) << "\n"
+       << pad("observed agreement", 30) << number(result.observed_agreement) << "\n"
+       << pad("chance agreement", 30) << number(result.expected_agreement) << "\n"
+       << pad("standard error if kappa = 0", 30) << number(result.null_standard_error) << "\n"
+       << pad("test of kappa = 0", 30) << "z = " << number(result.z, 3) << ", p = " << p_value(result.p_value)
        << "\n\n"
        << pad("category", 10) << pad("proportion", 12) << "kappa\n";
   for (std::size_t j = 0; j < categories.size(); ++j) {
@@ -329,13 +329,13 @@ Report run_bland_altman(const measure::RatingsTable& table, const AgreeOptions& 
   std::ostringstream text;
   text << "Bland-Altman agreement, " << table_summary(table) << "\n"
        << "differences: " << in_quotes(table.raters[0]) << " - " << in_quotes(table.raters[1]) << "\n\n"
-       << pad("", 28) << pad("estimate", 12) << percent(options.confidence) << " interval\n"
-       << pad("bias (mean difference)", 28) << pad(number(result.bias), 12)
+       << pad("", 34) << pad("estimate", 12) << percent(options.confidence) << " interval\n"
+       << pad("bias (mean difference)", 34) << pad(number(result.bias), 12)
        << interval(result.bias_interval.lower, result.bias_interval.upper) << "\n"
-       << pad("SD of differences", 28) << number(result.difference_sd) << "\n"
-       << pad("lower limit (bias - " + sd + ")", 28) << pad(number(result.lower_limit), 12)
+       << pad("SD of differences", 34) << number(result.difference_sd) << "\n"
+       << pad("lower limit (bias - " + sd + ")", 34) << pad(number(result.lower_limit), 12)
        << interval(result.lower_limit_interval.lower, result.lower_limit_interval.upper) << "\n"
-       << pad("upper limit (bias + " + sd + ")", 28) << pad(number(result.upper_limit), 12)
+       << pad("upper limit (bias + " + sd + ")", 34) << pad(number(result.upper_limit), 12)
        << interval(result.upper_limit_interval.lower, result.upper_limit_interval.upper) << "\n"
        << "\nBland & Altman (1986, 1999); intervals use t on n-1 df with standard errors\n"
           "SD/sqrt(n) for the bias and sqrt(3 SD^2/n) for each limit.\n";
@@ -360,14 +360,14 @@ Report run_repeatability(const measure::RatingsTable& table, const AgreeOptions&
   std::ostringstream text;
   text << "Repeatability, " << table_summary(table) << "\n"
        << "each rater column is one replicate measurement of the subject\n\n"
-       << pad("", 34) << pad("estimate", 12) << percent(options.confidence) << " interval\n"
-       << pad("within-subject SD s_w", 34) << pad(number(result.within_subject_sd), 12)
+       << pad("", 38) << pad("estimate", 12) << percent(options.confidence) << " interval\n"
+       << pad("within-subject SD s_w", 38) << pad(number(result.within_subject_sd), 12)
        << interval(result.within_subject_sd_lower, result.within_subject_sd_upper) << "\n"
-       << pad("repeatability coefficient 2.77 s_w", 34) << pad(number(result.repeatability_coefficient), 12)
+       << pad("repeatability coefficient 2.77 s_w", 38) << pad(number(result.repeatability_coefficient), 12)
        << interval(result.repeatability_coefficient_lower, result.repeatability_coefficient_upper) << "\n";
   if (result.replicates == 2) {
     report.result["paired_difference_coefficient"] = result.paired_difference_coefficient;
-    text << pad("2 x SD of paired differences", 34) << number(result.paired_difference_coefficient) << "\n";
+    text << pad("2 x SD of paired differences", 38) << number(result.paired_difference_coefficient) << "\n";
   }
   text << "\nBland & Altman (BMJ 1996): 95% of differences between two measurements of one\n"
           "subject are expected below 1.96 sqrt(2) s_w; interval from chi-squared on "

@@ -32,7 +32,12 @@ struct Geometry {
   std::array<double, 9> direction{1, 0, 0, 0, 1, 0, 0, 0, 1};
 
   double voxel_volume_mm3() const { return spacing_mm[0] * spacing_mm[1] * spacing_mm[2]; }
-  std::array<double, 3> world_mm(double ix, double iy, double iz) const;
+  std::array<double, 3> world_mm(double ix, double iy, double iz) const {
+    const double local[3] = {ix * spacing_mm[0], iy * spacing_mm[1], iz * spacing_mm[2]};
+    return {origin_mm[0] + direction[0] * local[0] + direction[1] * local[1] + direction[2] * local[2],
+            origin_mm[1] + direction[3] * local[0] + direction[4] * local[1] + direction[5] * local[2],
+            origin_mm[2] + direction[6] * local[0] + direction[7] * local[1] + direction[8] * local[2]};
+  }
 };
 
 // Aborts in every build: for broken internal invariants, never for user input.

@@ -1,6 +1,7 @@
 #include "phantoms/nifti_io.h"
 
 #include <nifti1_io.h>
+#include <zlib.h>
 
 #include <cmath>
 #include <cstdio>
@@ -71,6 +72,23 @@ void write_any(const Image<Voxel>& image, const std::string& path, int datatype)
   if (error) throw UserError(path + ": cannot move the finished file into place: " + error.message());
 }
 
+// Bytes a gzip file decompresses to; a damaged or cut stream is a UserError.
+std::uintmax_t decompressed_size(const std::string& path) {
+  gzFile file = gzopen(path.c_str(), "rb");
+  if (file == nullptr) throw UserError(path + ": cannot open for reading");
+  std::vector<char> buffer(1 << 16);
+  std::uintmax_t total = 0;
+  int got = 0;
+  while ((got = gzread(file, buffer.data(), static_cast<unsigned>(buffer.size()))) > 0) total += static_cast<std::uintmax_t>(got);
+  int status = Z_OK;
+  const std::string reason = gzerror(file, &status);
+  gzclose(file);
+  if (got < 0 || (status != Z_OK && status != Z_STREAM_END))
+    throw UserError(path + ": the compressed data is damaged or cut short after " + std::to_string(total) +
+                    " bytes (" + reason + ")");
+  return total;
+}
+
 NiftiPointer read_checked(const std::string& path) {
   std::error_code error;
   if (!std::filesystem::is_regular_file(path, error)) throw UserError(path + ": no such NIfTI file");
@@ -84,9 +102,11 @@ NiftiPointer read_checked(const std::string& path) {
   const auto expected = static_cast<std::uintmax_t>(header->iname_offset) +
                         static_cast<std::uintmax_t>(header->nvox) * static_cast<std::uintmax_t>(header->nbyper);
   const bool compressed = path.size() > 3 && path.compare(path.size() - 3, 3, ".gz") == 0;
-  if (!compressed && std::filesystem::file_size(path, error) < expected)
-    throw UserError(path + ": truncated: the header promises " + std::to_string(expected) + " bytes, the file has " +
-                    std::to_string(std::filesystem::file_size(path, error)));
+  // The NIfTI library fills missing data with zeros and carries on, so check the length first.
+  const std::uintmax_t available = compressed ? decompressed_size(path) : std::filesystem::file_size(path, error);
+  if (available < expected)
+    throw UserError(path + ": truncated: the header promises " + std::to_string(expected) + " bytes, the file holds " +
+                    std::to_string(available));
   NiftiPointer full(nifti_image_read(path.c_str(), 1));
   if (!full || full->data == nullptr)
     throw UserError(path + ": the image data cannot be read (truncated or corrupt file)");

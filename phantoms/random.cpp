@@ -41,15 +41,59 @@ double RandomStream::normal() {
   return radius * std::cos(angle);
 }
 
-void RandomStream::normal_pair(float& first, float& second) {
-  const std::uint64_t bits = next_u64();
-  // Two 32-bit uniforms from one draw; (0, 1] for the logarithm.
-  const float u1 = (static_cast<float>(bits >> 40U) + 1.0F) * 0x1.0p-24F;
-  const float u2 = static_cast<float>((bits >> 8U) & 0xFFFFFFU) * 0x1.0p-24F;
-  const float radius = std::sqrt(-2.0F * std::log(u1));
-  const float angle = 6.28318530717958647692F * u2;
-  first = radius * std::cos(angle);
-  second = radius * std::sin(angle);
+namespace {
+
+// Ziggurat tables for 128 layers of the standard normal density (Marsaglia & Tsang 2000).
+struct ZigguratTables {
+  static constexpr int kLayers = 128;
+  static constexpr double kTail = 3.442619855899;      // x of the base layer's right edge
+  static constexpr double kLayerArea = 9.91256303526217e-3;
+  double x[kLayers + 1];  // layer edges, x[0] = base width (area / f(kTail))
+  double f[kLayers + 1];  // density exp(-x^2/2) at each edge
+
+  ZigguratTables() {
+    x[0] = kLayerArea / std::exp(-0.5 * kTail * kTail);
+    x[1] = kTail;
+    f[0] = 0.0;  // unused
+    f[1] = std::exp(-0.5 * kTail * kTail);
+    for (int i = 2; i < kLayers; ++i) {
+      x[i] = std::sqrt(-2.0 * std::log(kLayerArea / x[i - 1] + f[i - 1]));
+      f[i] = std::exp(-0.5 * x[i] * x[i]);
+    }
+    x[kLayers] = 0.0;
+    f[kLayers] = 1.0;
+  }
+};
+
+const ZigguratTables& ziggurat() {
+  static const ZigguratTables tables;
+  return tables;
+}
+
+}  // namespace
+
+float RandomStream::normal_float() {
+  const ZigguratTables& z = ziggurat();
+  while (true) {
+    const std::uint64_t bits = next_u64();
+    const int layer = static_cast<int>(bits & 127U);
+    // A signed uniform on (-1, 1) from the top 53 bits, independent of the layer bits.
+    const double u = 2.0 * (static_cast<double>(bits >> 11U) * 0x1.0p-53) - 1.0;
+    const double x = u * z.x[layer];
+    if (std::abs(x) < z.x[layer + 1]) return static_cast<float>(x);  // inside the layer's core
+    if (layer == 0) {
+      // The base layer outside its core: a draw from the tail beyond kTail (Marsaglia 1964).
+      double tail = 0.0, y = 0.0;
+      do {
+        tail = -std::log(uniform_open0()) / ZigguratTables::kTail;
+        y = -std::log(uniform_open0());
+      } while (y + y < tail * tail);
+      return static_cast<float>(u > 0.0 ? ZigguratTables::kTail + tail : -ZigguratTables::kTail - tail);
+    }
+    // The wedge between the layer's core and its edge: accept under the density.
+    const double density_low = z.f[layer], density_high = z.f[layer + 1];
+    if (density_low + uniform() * (density_high - density_low) < std::exp(-0.5 * x * x)) return static_cast<float>(x);
+  }
 }
 
 double RandomStream::gamma(double shape) {

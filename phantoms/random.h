@@ -57,8 +57,13 @@ class RandomStream {
 
   double normal();
   double normal(double mean, double sd) { return mean + sd * normal(); }
-  // Two independent standard normals from one Box–Muller step, in float for bulk noise.
-  void normal_pair(float& first, float& second);
+  // Standard normals in float for bulk noise, by the ziggurat method (Marsaglia & Tsang 2000):
+  // about four times faster than Box–Muller and exact up to float rounding.
+  float normal_float();
+  void normal_pair(float& first, float& second) {
+    first = normal_float();
+    second = normal_float();
+  }
 
   double gamma(double shape);  // scale 1
   std::int64_t poisson(double mean);

@@ -21,12 +21,13 @@ double smoothstep(double edge0, double edge1, double x) {
 struct Head {
   Vec semi_axes{};
   bool flat = true;
-  // Normalised ellipsoidal radius: 1 on the boundary.
-  double radius(const Vec& p) const {
+  // Squared normalised ellipsoidal radius: 1 on the boundary.
+  double radius_squared(const Vec& p) const {
     double q = 0.0;
     for (std::size_t axis = 0; axis < (flat ? 2U : 3U); ++axis) q += (p[axis] / semi_axes[axis]) * (p[axis] / semi_axes[axis]);
-    return std::sqrt(q);
+    return q;
   }
+  double radius(const Vec& p) const { return std::sqrt(radius_squared(p)); }
 };
 
 CoarseGrid random_grid(const Shape& fine, int step, RandomStream& random) {
@@ -47,7 +48,10 @@ double tissue(const StreaksOptions& s, const Head& head, const Vec& p, double wo
     const Vec c{side * 0.12 * head.semi_axes[0], -0.05 * head.semi_axes[1], 0.0};
     const Vec a{0.07 * head.semi_axes[0], 0.22 * head.semi_axes[1], 0.15 * head.semi_axes[2]};
     double q = 0.0;
-    for (std::size_t axis = 0; axis < (head.flat ? 2U : 3U); ++axis) q += std::pow((p[axis] - c[axis]) / a[axis], 2.0);
+    for (std::size_t axis = 0; axis < (head.flat ? 2U : 3U); ++axis) {
+      const double t = (p[axis] - c[axis]) / a[axis];
+      q += t * t;
+    }
     value += (s.csf - value) * (1.0 - smoothstep(0.8, 1.2, std::sqrt(q)));
   }
   return value;
@@ -198,7 +202,7 @@ RestSubject draw_streaks_at_rest(const ScenarioOptions& scenario, std::uint64_t 
   for (int k = 0; k < shape.z; ++k)
     for (int j = 0; j < shape.y; ++j)
       for (int i = 0; i < shape.x; ++i)
-        rest.field.at(i, j, k) = head.radius(geometry.world_mm(i, j, k)) <= 1.0 ? 1 : 0;
+        rest.field.at(i, j, k) = head.radius_squared(geometry.world_mm(i, j, k)) <= 1.0 ? 1 : 0;
 
   const auto bias_at = [&](const Vec& p) {
     const auto index = [&](std::size_t axis, int limit) {

@@ -23,7 +23,10 @@ struct Ellipsoid {
   double radius(const Vec& p, bool flat) const {
     double q = 0.0;
     for (std::size_t axis = 0; axis < (flat ? 2U : 3U); ++axis)
-      q += std::pow((p[axis] - centre[axis]) / semi_axes[axis], 2.0);
+    {
+      const double t = (p[axis] - centre[axis]) / semi_axes[axis];
+      q += t * t;
+    }
     return std::sqrt(q);
   }
 };
@@ -108,15 +111,26 @@ int paint_balls(const Anatomy& a, double target, double min_radius_mm, double ma
     const int ri = static_cast<int>(std::ceil(radius / g.spacing_mm[0]));
     const int rj = static_cast<int>(std::ceil(radius / g.spacing_mm[1]));
     const int rk = a.flat ? 0 : static_cast<int>(std::ceil(radius / g.spacing_mm[2]));
+    // New voxels of this ball, nearest first: if the ball would overshoot, keeping only the
+    // nearest ones is a smaller concentric ball, so the region reaches the target exactly.
+    std::vector<std::pair<double, std::size_t>> fresh;
     for (int k = std::max(0, ck - rk); k <= std::min(g.shape.z - 1, ck + rk); ++k)
       for (int j = std::max(0, cj - rj); j <= std::min(g.shape.y - 1, cj + rj); ++j)
         for (int i = std::max(0, ci - ri); i <= std::min(g.shape.x - 1, ci + ri); ++i) {
           const double dx = (i - ci) * g.spacing_mm[0], dy = (j - cj) * g.spacing_mm[1], dz = (k - ck) * g.spacing_mm[2];
-          if (dx * dx + dy * dy + dz * dz > radius * radius) continue;
-          if (a.field.at(i, j, k) == 0 || region.at(i, j, k) != 0) continue;
-          region.at(i, j, k) = 1;
-          ++covered;
+          const double distance2 = dx * dx + dy * dy + dz * dz;
+          if (distance2 > radius * radius) continue;
+          const std::size_t n = region.index(i, j, k);
+          if (a.field.data()[n] == 0 || region.data()[n] != 0) continue;
+          fresh.emplace_back(distance2, n);
         }
+    const auto missing = static_cast<std::size_t>(wanted - covered);
+    if (fresh.size() > missing) {
+      std::sort(fresh.begin(), fresh.end());
+      fresh.resize(missing);
+    }
+    for (const auto& entry : fresh) region.data()[entry.second] = 1;
+    covered += static_cast<std::int64_t>(fresh.size());
     ++balls;
   }
   return balls;

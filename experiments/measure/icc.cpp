@@ -2,6 +2,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <limits>
 #include <sstream>
 
 #include "experiments/measure/distributions.h"
@@ -87,6 +88,15 @@ IccAnova icc_anova(const Eigen::MatrixXd& ratings) {
   return anova;
 }
 
+namespace {
+
+// Interval ends from an F bound; an infinite F (a zero error mean square, i.e. perfect
+// agreement) maps to the limit 1 instead of inf/inf.
+double single_rater_bound(double f, double k) { return std::isinf(f) ? 1.0 : (f - 1.0) / (f + k - 1.0); }
+double average_bound(double f) { return std::isinf(f) ? 1.0 : 1.0 - 1.0 / f; }
+
+}  // namespace
+
 IccResult intraclass_correlation(const Eigen::MatrixXd& ratings, const IccOptions& options) {
   if (const std::string problem = options.validate(); !problem.empty()) throw UserError(problem);
   IccResult result;
@@ -113,10 +123,10 @@ IccResult intraclass_correlation(const Eigen::MatrixXd& ratings, const IccOption
     const double f_high = f0 * f_quantile(upper_tail, df2, df1);
     const double p = f_survival(f0, df1, df2);
     result.estimates[0] = {IccForm::one_way_single, (bms - wms) / (bms + (k - 1.0) * wms),
-                           (f_low - 1.0) / (f_low + k - 1.0), (f_high - 1.0) / (f_high + k - 1.0),
+                           single_rater_bound(f_low, k), single_rater_bound(f_high, k),
                            f0, df1, df2, p};
-    result.estimates[3] = {IccForm::one_way_average, (bms - wms) / bms, 1.0 - 1.0 / f_low,
-                           1.0 - 1.0 / f_high, f0, df1, df2, p};
+    result.estimates[3] = {IccForm::one_way_average, (bms - wms) / bms, average_bound(f_low),
+                           average_bound(f_high), f0, df1, df2, p};
   }
   // Two-way models share the test F = BMS/EMS on (n-1, (n-1)(k-1)).
   const double df1 = n - 1.0;
@@ -128,28 +138,35 @@ IccResult intraclass_correlation(const Eigen::MatrixXd& ratings, const IccOption
     const double f_low = f0 / f_quantile(upper_tail, df1, df2);
     const double f_high = f0 * f_quantile(upper_tail, df2, df1);
     result.estimates[2] = {IccForm::two_way_mixed_single, (bms - ems) / (bms + (k - 1.0) * ems),
-                           (f_low - 1.0) / (f_low + k - 1.0), (f_high - 1.0) / (f_high + k - 1.0),
+                           single_rater_bound(f_low, k), single_rater_bound(f_high, k),
                            f0, df1, df2, p};
-    result.estimates[5] = {IccForm::two_way_mixed_average, (bms - ems) / bms, 1.0 - 1.0 / f_low,
-                           1.0 - 1.0 / f_high, f0, df1, df2, p};
+    result.estimates[5] = {IccForm::two_way_mixed_average, (bms - ems) / bms, average_bound(f_low),
+                           average_bound(f_high), f0, df1, df2, p};
   }
   {
     // Absolute agreement (case 2): Satterthwaite degrees of freedom of Shrout & Fleiss (1979)
     // eq. for ICC(2,1); the average form is its Spearman-Brown step-up, which equals the
     // McGraw & Wong (1996) ICC(A,k) interval.
     const double icc = (bms - ems) / (bms + (k - 1.0) * ems + k * (jms - ems) / n);
-    const double f_raters = jms / ems;
-    const double base = n * (1.0 + (k - 1.0) * icc) - k * icc;
-    const double v = (k - 1.0) * (n - 1.0) * std::pow(k * icc * f_raters + base, 2.0) /
-                     ((n - 1.0) * k * k * icc * icc * f_raters * f_raters + base * base);
-    const double f_star = f_quantile(upper_tail, n - 1.0, v);
-    const double f_star2 = f_quantile(upper_tail, v, n - 1.0);
-    const double spread = k * jms + (k * n - k - n) * ems;
-    const double lower = n * (bms - f_star * ems) / (f_star * spread + n * bms);
-    const double upper = n * (f_star2 * bms - ems) / (spread + n * f_star2 * bms);
-    result.estimates[1] = {IccForm::two_way_random_single, icc, lower, upper, f0, df1, df2, p};
     const auto step_up = [k](double r) { return k * r / (1.0 + (k - 1.0) * r); };
-    result.estimates[4] = {IccForm::two_way_random_average, (bms - ems) / (bms + (jms - ems) / n),
+    const double average_icc = (bms - ems) / (bms + (jms - ems) / n);
+    const double f_raters = ems > 0.0 ? jms / ems : 0.0;
+    const double base = n * (1.0 + (k - 1.0) * icc) - k * icc;
+    // With no residual variance F_raters is infinite and v tends to k - 1.
+    const double v = ems > 0.0 ? (k - 1.0) * (n - 1.0) * std::pow(k * icc * f_raters + base, 2.0) /
+                                     ((n - 1.0) * k * k * icc * icc * f_raters * f_raters + base * base)
+                               : k - 1.0;
+    double lower = std::numeric_limits<double>::quiet_NaN();
+    double upper = lower;
+    if (v > 0.0 && std::isfinite(v)) {  // v can collapse for strongly negative ICCs
+      const double f_star = f_quantile(upper_tail, n - 1.0, v);
+      const double f_star2 = f_quantile(upper_tail, v, n - 1.0);
+      const double spread = k * jms + (k * n - k - n) * ems;
+      lower = n * (bms - f_star * ems) / (f_star * spread + n * bms);
+      upper = n * (f_star2 * bms - ems) / (spread + n * f_star2 * bms);
+    }
+    result.estimates[1] = {IccForm::two_way_random_single, icc, lower, upper, f0, df1, df2, p};
+    result.estimates[4] = {IccForm::two_way_random_average, average_icc,
                            step_up(lower), step_up(upper), f0, df1, df2, p};
   }
   return result;

@@ -2,6 +2,8 @@
 
 #include <gtest/gtest.h>
 
+#include <cmath>
+
 #include "phantoms/user_error.h"
 
 namespace frugal::measure {
@@ -66,6 +68,21 @@ TEST(Icc, FTests) {
   EXPECT_NEAR(result.get(IccForm::one_way_single).p_value, 0.1647688083446397, 1e-9);
   EXPECT_NEAR(result.get(IccForm::two_way_mixed_single).f_statistic, 11.027247956403299, 1e-9);
   EXPECT_NEAR(result.get(IccForm::two_way_mixed_single).p_value, 0.00013456651648433476, 1e-12);
+}
+
+TEST(Icc, ZeroResidualGivesFiniteIntervals) {
+  // Raters differ only by a constant offset: EMS = 0, so consistency is perfect (ICC(3,1) = 1)
+  // while absolute agreement is not. Identity of the formulas, no outside source.
+  Eigen::MatrixXd y(4, 3);
+  y << 1, 2, 4, 3, 4, 6, 2, 3, 5, 7, 8, 10;
+  const IccResult result = intraclass_correlation(y);
+  EXPECT_NEAR(result.get(IccForm::two_way_mixed_single).value, 1.0, 1e-12);
+  EXPECT_NEAR(result.get(IccForm::two_way_mixed_single).lower, 1.0, 1e-12);
+  const IccEstimate& absolute = result.get(IccForm::two_way_random_single);
+  EXPECT_LT(absolute.value, 1.0);
+  EXPECT_TRUE(std::isfinite(absolute.lower) && std::isfinite(absolute.upper));
+  EXPECT_LE(absolute.lower, absolute.value);
+  EXPECT_GE(absolute.upper, absolute.value);
 }
 
 TEST(Icc, NamesInBothConventions) {
