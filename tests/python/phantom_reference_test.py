@@ -1,0 +1,588 @@
+#!/usr/bin/env python3
+"""Reference checks of `frugal phantoms` against outside libraries and definitions: the NIfTI
+headers as nibabel reads them, the truth tables against connected components of the label images
+(scipy.ndimage, scikit-image), densitometry and Hounsfield anchors, the Rician noise model against
+scipy.stats, determinism, rescans and the exit code on bad input.
+
+Run by CTest as: /usr/bin/python3 phantom_reference_test.py --frugal PATH --source REPO_DIR
+Every set is drawn with an explicit seed, printed in the failure message of each check.
+"""
+
+import argparse
+import csv
+import json
+import math
+import os
+import re
+import subprocess
+import sys
+import tempfile
+import unittest
+
+import nibabel as nib
+import numpy as np
+import skimage.measure
+from scipy import ndimage, stats
+
+FRUGAL = None   # path of the frugal executable (from --frugal)
+SOURCE = None   # repository root (from --source)
+WORK = None     # tempfile.TemporaryDirectory shared by the tests of this module
+SEED = 20240611  # explicit seed of every set below unless a test says otherwise
+DENSITOMETRY_THRESHOLD_HU = -950.0  # Gevenois et al. 1995, Am J Respir Crit Care Med 152:653
+_SETS = {}
+
+
+# ----------------------------------------------------------------------------------------------
+# helpers
+
+
+def scenario_path(name):
+    return os.path.join(SOURCE, "tests", "data", "scenarios", name + ".yaml")
+
+
+def run_frugal(*args, timeout=120):
+    return subprocess.run([FRUGAL, *[str(a) for a in args]], capture_output=True, text=True, timeout=timeout)
+
+
+def phantoms(scenario, out, count, *extra, seed=SEED):
+    """Runs `frugal phantoms` and fails loudly (with the command) when it does not exit 0."""
+    done = run_frugal("phantoms", scenario, "--count", count, "--out", out, "--seed", seed, *extra)
+    if done.returncode != 0:
+        raise AssertionError(f"frugal phantoms {scenario} --count {count} --seed {seed} {' '.join(map(str, extra))} "
+                             f"exited {done.returncode}: {done.stderr}")
+    return out
+
+
+def phantom_set(key, scenario, count, *extra, seed=SEED):
+    """A set drawn once per module run and shared by the tests that read it."""
+    if key not in _SETS:
+        _SETS[key] = phantoms(scenario, os.path.join(WORK.name, key), count, *extra, seed=seed)
+    return _SETS[key]
+
+
+def edited_scenario(name, replacements, new_name):
+    """A temporary copy of a test scenario with textual replacements (PyYAML may be absent)."""
+    with open(scenario_path(name)) as source:
+        text = source.read()
+    for pattern, replacement in replacements:
+        text, n = re.subn(pattern, replacement, text, flags=re.MULTILINE)
+        if n == 0:
+            raise AssertionError(f"scenario edit {pattern!r} matched nothing in {name}")
+    path = os.path.join(WORK.name, new_name + ".yaml")
+    with open(path, "w") as out:
+        out.write(text)
+    return path
+
+
+def read_table(path):
+    """Rows of a frugal CSV table as dicts; lines starting with '#' are version comments."""
+    with open(path, newline="") as table:
+        return list(csv.DictReader(line for line in table if not line.startswith("#")))
+
+
+def manifest(folder):
+    with open(os.path.join(folder, "manifest.json")) as document:
+        return json.load(document)
+
+
+def load(folder, relative):
+    image = nib.load(os.path.join(folder, relative))
+    return image, np.asanyarray(image.dataobj)
+
+
+def geometry_of(folder):
+    """(shape, spacing) the scenario recorded in the manifest asks for."""
+    scenario = manifest(folder)["scenario"]
+    geometry = scenario["geometry"]
+    spacing = [float(s) for s in geometry["spacing_mm"]]
+    shape = tuple(geometry["size_2d"]) if geometry["dims"] == 2 else tuple(geometry["size_3d"])
+    return shape, spacing
+
+
+def voxel_volume(spacing):
+    # 2D images use the third spacing entry as slice thickness (phantoms/scenario.h).
+    return spacing[0] * spacing[1] * spacing[2]
+
+
+def world_of_voxels(shape, spacing):
+    """World millimetres of every voxel centre: origin -(n-1)/2*spacing per axis, identity direction."""
+    axes = [(np.arange(n) - (n - 1) / 2.0) * spacing[axis] for axis, n in enumerate(shape)]
+    return np.meshgrid(*axes, indexing="ij")
+
+
+def subjects_of(folder, rescan="0"):
+    return [row for row in read_table(os.path.join(folder, "truth.csv")) if row["rescan"] == rescan]
+
+
+def full_connectivity(ndim):
+    # 8-connectivity in 2D, 26 in 3D: the structure VALIDATION.md §10 gives for scipy.ndimage.label.
+    return np.ones((3,) * ndim, dtype=bool)
+
+
+# ----------------------------------------------------------------------------------------------
+# 1. NIfTI files as nibabel reads them
+
+
+class NiftiHeaderTest(unittest.TestCase):
+    SETS = [("streaks-2d", "reference-streaks", ()), ("streaks-3d", "reference-streaks", ("--dims", "3")),
+            ("voids-2d", "reference-voids", ()), ("voids-3d", "reference-voids", ("--dims", "3"))]
+
+    def test_every_file_opens_with_shape_zooms_affine_dtype_and_codes(self):
+        for key, scenario, extra in self.SETS:
+            folder = phantom_set(key, scenario_path(scenario), 2, *extra)
+            shape, spacing = geometry_of(folder)
+            ndim = len(shape)
+            for row in read_table(os.path.join(folder, "truth.csv")):
+                for column, dtype in (("image", np.float32), ("labels", np.uint8)):
+                    with self.subTest(set=key, seed=SEED, file=row[column]):
+                        image, data = load(folder, row[column])  # nibabel opens it
+                        header = image.header
+                        # Shape and voxel size as the scenario asks (nibabel reads dim and pixdim).
+                        self.assertEqual(image.shape, shape)
+                        self.assertEqual(data.shape, shape)
+                        np.testing.assert_allclose(header.get_zooms(), spacing[:ndim], rtol=0, atol=1e-5)
+                        # Stored type, with no intensity scaling (NIfTI-1 scl_slope 0 or NaN = none).
+                        self.assertEqual(header.get_data_dtype(), np.dtype(dtype))
+                        self.assertEqual(data.dtype, np.dtype(dtype))
+                        slope, intercept = header.get_slope_inter()
+                        self.assertIn(slope, (None, 1.0))
+                        self.assertIn(intercept, (None, 0.0))
+                        # Affine: diag(spacing) with the origin -(n-1)/2*spacing (nibabel affine,
+                        # from both qform and sform); a 2D image keeps the slice thickness on z.
+                        expected = np.diag([spacing[0], spacing[1], spacing[2], 1.0])
+                        for axis, n in enumerate(shape):
+                            expected[axis, 3] = -(n - 1) / 2.0 * spacing[axis]
+                        self.assertTrue(np.allclose(image.affine, expected, rtol=0, atol=1e-5),
+                                        f"affine\n{image.affine}\nexpected\n{expected}")
+                        self.assertTrue(np.allclose(header.get_qform(), expected, rtol=0, atol=1e-5))
+                        self.assertTrue(np.allclose(header.get_sform(), expected, rtol=0, atol=1e-5))
+                        # NIfTI-1 xform code 1 = NIFTI_XFORM_SCANNER_ANAT, units millimetres.
+                        self.assertEqual(int(header["qform_code"]), 1)
+                        self.assertEqual(int(header["sform_code"]), 1)
+                        self.assertEqual(header.get_xyzt_units()[0], "mm")
+                        if column == "labels":
+                            # Label codes of phantoms/subject.h, as listed in the manifest.
+                            self.assertTrue(set(np.unique(data)) <= {0, 1, 2, 3, 4})
+                            self.assertEqual(sorted(manifest(folder)["label_codes"]), ["0", "1", "2", "3", "4"])
+
+
+# ----------------------------------------------------------------------------------------------
+# 2. Truth tables against the label images (streaks)
+
+
+class StreaksTruthTest(unittest.TestCase):
+    def check_set(self, key, *extra):
+        folder = phantom_set(key, scenario_path("reference-streaks"), 4, *extra)
+        shape, spacing = geometry_of(folder)
+        ndim = len(shape)
+        volume = voxel_volume(spacing)
+        world = world_of_voxels(shape, spacing)
+        objects = read_table(os.path.join(folder, "objects.csv"))
+        total_count = 0
+        summed_mask, summed_analytic = 0.0, 0.0
+        for row in subjects_of(folder):
+            subject = row["subject"]
+            with self.subTest(set=key, seed=SEED, subject=subject):
+                _, labels = load(folder, row["labels"])
+                lesion = labels == 2
+                count = int(row["count"])
+                total_count += count
+                # Lesions are counted as connected components with full connectivity
+                # (scipy.ndimage.label with np.ones((3,)*ndim), VALIDATION.md §10).
+                components, n = ndimage.label(lesion, structure=full_connectivity(ndim))
+                self.assertEqual(n, count, "scipy.ndimage.label components vs truth count")
+                # skimage.measure.label's default is full connectivity (VALIDATION.md §10).
+                _, n_skimage = skimage.measure.label(lesion, return_num=True, connectivity=ndim)
+                self.assertEqual(n_skimage, count, "skimage.measure.label components vs truth count")
+
+                # Affected fraction = lesion voxels / field voxels (phantoms/subject.h definition;
+                # common practice, no source); written with 9 significant digits.
+                field = labels >= 1
+                self.assertAlmostEqual(float(row["affected_fraction"]), lesion.sum() / field.sum(), delta=1e-6)
+                self.assertAlmostEqual(float(row["field_volume_mm3"]), field.sum() * volume,
+                                       delta=1e-8 * field.sum() * volume)
+
+                rows = [o for o in objects if o["subject"] == subject and o["rescan"] == "0"]
+                lesions = [o for o in rows if o["kind"] == "lesion"]
+                self.assertEqual(len(lesions), count)
+                ids = [int(o["object"]) for o in rows]
+                self.assertEqual(ids, list(range(1, len(rows) + 1)), "object ids are 1..n within the subject")
+                # Burden = summed analytic lesion volume (phantoms/subject.h).
+                burden = sum(float(o["volume_mm3"]) for o in lesions)
+                self.assertAlmostEqual(float(row["burden_mm3"]), burden, delta=1e-6 * max(1.0, burden))
+
+                # Each lesion is matched to the component holding the lesion voxel nearest to its
+                # centre; its mask volume is that component's voxel count times the voxel volume
+                # (common practice, no source).
+                matched = set()
+                for o in lesions:
+                    centre = [float(o["centre_x_mm"]), float(o["centre_y_mm"]), float(o["centre_z_mm"])]
+                    distance = sum((world[a][lesion] - centre[a]) ** 2 for a in range(ndim))
+                    component = int(components[lesion][int(np.argmin(distance))])
+                    self.assertNotIn(component, matched, f"object {o['object']} shares a component")
+                    matched.add(component)
+                    voxels = int((components == component).sum())
+                    self.assertAlmostEqual(float(o["mask_volume_mm3"]), voxels * volume,
+                                           delta=1e-8 * max(1.0, voxels * volume), msg=f"object {o['object']}")
+                    summed_mask += float(o["mask_volume_mm3"])
+                    summed_analytic += float(o["volume_mm3"])
+
+                # Every labelled voxel of each kind belongs to an object of that kind: summed mask
+                # volumes per kind equal the voxel counts of the label codes (phantoms/subject.h).
+                for code, kind in ((2, "lesion"), (3, "dot_distractor"), (4, "line_distractor")):
+                    mask_sum = sum(float(o["mask_volume_mm3"]) for o in rows if o["kind"] == kind)
+                    self.assertAlmostEqual(mask_sum, (labels == code).sum() * volume, delta=1e-6, msg=kind)
+
+                if ndim == 3:
+                    # A lesion counts in the reference slice when its labelled voxels touch it
+                    # (phantoms/subject.h); by components of the label image (scipy.ndimage.label).
+                    k = int(row["reference_slice"])
+                    self.assertEqual(k, shape[2] // 2)
+                    touching = set(np.unique(components[:, :, k])) - {0}
+                    self.assertEqual(int(row["count_reference_slice"]), len(touching))
+        self.assertGreater(total_count, 5, f"the set {key} (seed {SEED}) should hold lesions to check")
+        # The labelled volume (voxels at least half inside) matches the analytic volume in sum
+        # within +-10%: a partial-volume tolerance for 1-2 mm wide objects on 1 mm voxels
+        # (common practice, no source).
+        self.assertLess(abs(summed_mask - summed_analytic), 0.10 * summed_analytic,
+                        f"{key}, seed {SEED}: labelled {summed_mask:.1f} mm3 vs analytic {summed_analytic:.1f} mm3")
+
+    def test_2d(self):
+        self.check_set("streaks-2d")
+
+    def test_3d(self):
+        self.check_set("streaks-3d", "--dims", "3")
+
+
+# ----------------------------------------------------------------------------------------------
+# 3. Densitometry (voids)
+
+
+class DensitometryTest(unittest.TestCase):
+    def check_set(self, key, *extra):
+        folder = phantom_set(key, scenario_path("reference-voids"), 2, *extra)
+        shape, spacing = geometry_of(folder)
+        self.assertEqual(float(manifest(folder)["scenario"]["voids"]["threshold_hu"]), DENSITOMETRY_THRESHOLD_HU)
+        for row in subjects_of(folder):
+            with self.subTest(set=key, seed=SEED, subject=row["subject"]):
+                _, image = load(folder, row["image"])
+                _, labels = load(folder, row["labels"])
+                field = labels >= 1
+                # %LAA-950: share of field voxels strictly below -950 HU (Gevenois et al. 1995),
+                # computed with NumPy on the stored float32 values.
+                expected = float(np.mean(image[field] < np.float32(DENSITOMETRY_THRESHOLD_HU)))
+                self.assertAlmostEqual(float(row["densitometry"]), expected, delta=1e-8)
+                self.assertGreater(expected, 0.0, "the set should hold voxels below the threshold")
+                # Voids truth from the label image (phantoms/subject.h definitions; common practice).
+                lesion = labels == 2
+                self.assertAlmostEqual(float(row["affected_fraction"]), lesion.sum() / field.sum(), delta=1e-6)
+                self.assertAlmostEqual(float(row["field_volume_mm3"]), field.sum() * voxel_volume(spacing),
+                                       delta=1e-6 * field.sum())
+                self.assertAlmostEqual(float(row["burden_mm3"]), lesion.sum() * voxel_volume(spacing),
+                                       delta=1e-6 * max(1.0, lesion.sum()))
+
+    def test_2d(self):
+        self.check_set("voids-2d")
+
+    def test_3d(self):
+        self.check_set("voids-3d", "--dims", "3")
+
+
+# ----------------------------------------------------------------------------------------------
+# 4. Hounsfield anchors
+
+
+class HounsfieldAnchorTest(unittest.TestCase):
+    # HU = 1000 (mu - mu_water) / (mu_water - mu_air): water 0 HU and air -1000 HU by definition
+    # (VALIDATION.md §5; ICRP Publication 129). The scenario has no blur, noise or texture, and
+    # body_hu 0 (water), parenchyma -850 HU and regions at exactly -950 HU.
+    AIR_HU, WATER_HU, PARENCHYMA_HU, REGION_HU = -1000.0, 0.0, -850.0, -950.0
+
+    def check_anchors(self, key, *extra):
+        folder = phantom_set(key, scenario_path("hounsfield-anchors"), 2, *extra)
+        for row in subjects_of(folder):
+            with self.subTest(set=key, seed=SEED, subject=row["subject"]):
+                _, image = load(folder, row["image"])
+                _, labels = load(folder, row["labels"])
+                outside = labels == 0
+                # Image corners lie outside the body: air.
+                corners = image[tuple(np.ix_(*[[0, n - 1] for n in image.shape]))]
+                self.assertTrue(np.all(corners == self.AIR_HU), f"corners {corners.ravel()}")
+                # Outside the lungs every voxel is air or water (the body); the body is there and
+                # its most common value is 0 HU.
+                not_air = image[outside & (image != self.AIR_HU)]
+                self.assertGreater(not_air.size, 0)
+                values, counts = np.unique(not_air, return_counts=True)
+                self.assertEqual(float(values[np.argmax(counts)]), self.WATER_HU)
+                self.assertTrue(np.all(not_air == self.WATER_HU), f"body values {values[:10]}")
+                # Inside the lungs: parenchyma, or a low-density region exactly at -950 HU.
+                field = labels >= 1
+                self.assertTrue(np.all(image[labels == 1] == self.PARENCHYMA_HU))
+                self.assertTrue(np.all(image[labels == 2] == self.REGION_HU))
+                self.assertGreater(float(row["affected_fraction"]), 0.05)
+                # Densitometry counts voxels strictly below -950 HU (Gevenois et al. 1995;
+                # VALIDATION.md §5 asks for a test with voxels exactly at -950): none here.
+                self.assertEqual(float(np.mean(image[field] < np.float32(-950.0))), 0.0)
+                self.assertEqual(float(row["densitometry"]), 0.0)
+
+    def test_air_water_and_threshold_2d(self):
+        self.check_anchors("anchors-2d")
+
+    def test_air_water_and_threshold_3d(self):
+        self.check_anchors("anchors-3d", "--dims", "3")
+
+    def test_threshold_just_above_region_counts_every_region_voxel(self):
+        # With the threshold at -949 HU every region voxel (-950) is below it and no parenchyma
+        # voxel (-850) is: densitometry equals the affected fraction (definition, common practice).
+        scenario = edited_scenario("hounsfield-anchors", [(r"threshold_hu: -950", "threshold_hu: -949")],
+                                   "anchors-threshold-949")
+        folder = phantom_set("anchors-949", scenario, 2)
+        for row in subjects_of(folder):
+            with self.subTest(seed=SEED, subject=row["subject"]):
+                _, image = load(folder, row["image"])
+                _, labels = load(folder, row["labels"])
+                expected = float(np.mean(image[labels >= 1] < np.float32(-949.0)))
+                self.assertAlmostEqual(expected, float(row["affected_fraction"]), delta=1e-6)
+                self.assertAlmostEqual(float(row["densitometry"]), expected, delta=1e-8)
+
+
+# ----------------------------------------------------------------------------------------------
+# 5. Rician noise
+
+
+class RicianNoiseTest(unittest.TestCase):
+    SIGMA = 0.25  # noise.sigma of tests/data/scenarios/rician-background.yaml
+
+    @classmethod
+    def setUpClass(cls):
+        noisy = phantom_set("rician", scenario_path("rician-background"), 1)
+        # The same subject without noise: the signal each voxel had before the noise was added.
+        clean_scenario = edited_scenario("rician-background", [(r"model: rician", "model: none")], "rician-clean")
+        clean = phantom_set("rician-clean", clean_scenario, 1)
+        cls.labels = load(noisy, "labels/subject_000000.nii.gz")[1]
+        cls.noisy = load(noisy, "images/subject_000000.nii.gz")[1].astype(np.float64)
+        cls.clean = load(clean, "images/subject_000000.nii.gz")[1].astype(np.float64)
+
+    def check_moments_and_ks(self, sample, distribution, what):
+        n = sample.size
+        mean, variance = distribution.mean(), distribution.var()
+        excess_kurtosis = float(distribution.stats(moments="k"))
+        # Tolerances of 5 standard errors: SE(mean) = sqrt(var/n), SE(var) = var*sqrt((kurt_excess+2)/n)
+        # (large-sample formulas; common practice, no source).
+        self.assertLess(abs(sample.mean() - mean), 5 * math.sqrt(variance / n),
+                        f"{what}: mean {sample.mean():.5f} vs {mean:.5f} (n={n}, seed {SEED})")
+        self.assertLess(abs(sample.var(ddof=1) - variance), 5 * variance * math.sqrt((excess_kurtosis + 2) / n),
+                        f"{what}: variance {sample.var(ddof=1):.6f} vs {variance:.6f} (n={n}, seed {SEED})")
+        # scipy.stats.kstest against the exact distribution.
+        p = stats.kstest(sample, distribution.cdf).pvalue
+        self.assertGreater(p, 0.001, f"{what}: KS p = {p:.2g} (n={n}, seed {SEED})")
+
+    def test_air_follows_rayleigh(self):
+        # Where the signal is exactly 0 the magnitude of complex Gaussian noise is Rayleigh
+        # (Gudbjartsson & Patz 1995, VALIDATION.md §4): mean sigma*sqrt(pi/2), var (2-pi/2)sigma^2.
+        air = (self.labels == 0) & (self.clean == 0.0)
+        self.assertGreater(air.sum(), 10000)
+        sample = self.noisy[air]
+        self.assertTrue(np.all(sample >= 0.0), "magnitude images are non-negative")
+        rayleigh = stats.rayleigh(scale=self.SIGMA)
+        # The VALIDATION.md §4 closed forms agree with scipy.stats.rayleigh.
+        self.assertAlmostEqual(rayleigh.mean(), 1.2533141373 * self.SIGMA, delta=1e-9)
+        self.assertAlmostEqual(rayleigh.var(), 0.4292036732 * self.SIGMA ** 2, delta=1e-9)
+        self.check_moments_and_ks(sample, rayleigh, "air vs scipy.stats.rayleigh")
+        # Rice with b = 0 is the same law (scipy.stats.rice).
+        p = stats.kstest(sample, stats.rice(b=0.0, scale=self.SIGMA).cdf).pvalue
+        self.assertGreater(p, 0.001, f"air vs scipy.stats.rice(b=0): KS p = {p:.2g} (seed {SEED})")
+
+    def test_flat_white_matter_follows_rice(self):
+        # With no bias field and no blur, deep white matter has a flat signal A = 1 (the
+        # white-matter intensity); its magnitude is Rician with b = A/sigma (scipy.stats.rice,
+        # VALIDATION.md §4).
+        flat = (self.labels == 1) & (np.abs(self.clean - 1.0) < 1e-6)
+        self.assertGreater(flat.sum(), 5000)
+        signal = float(self.clean[flat].mean())
+        self.assertAlmostEqual(signal, 1.0, delta=1e-6)
+        sample = self.noisy[flat]
+        rice = stats.rice(b=signal / self.SIGMA, scale=self.SIGMA)
+        self.check_moments_and_ks(sample, rice, "white matter vs scipy.stats.rice")
+        # E[M^2] = A^2 + 2 sigma^2 exactly (VALIDATION.md §4); 5 standard errors.
+        second = sample ** 2
+        self.assertLess(abs(second.mean() - (signal ** 2 + 2 * self.SIGMA ** 2)),
+                        5 * second.std() / math.sqrt(second.size))
+
+
+# ----------------------------------------------------------------------------------------------
+# 6. Determinism
+
+
+def folder_files(folder):
+    found = {}
+    for root, _, files in os.walk(folder):
+        for name in files:
+            path = os.path.join(root, name)
+            with open(path, "rb") as content:
+                found[os.path.relpath(path, folder)] = content.read()
+    return found
+
+
+class DeterminismTest(unittest.TestCase):
+    # Same scenario, seed and thread count give the same files (DESIGN.md §6); the files do not
+    # depend on the thread count (phantoms/phantom_set.h). Common practice, no source.
+    def check_identical(self, first, second, what):
+        a, b = folder_files(first), folder_files(second)
+        self.assertEqual(sorted(a), sorted(b), what)
+        differing = [name for name in a if a[name] != b[name]]
+        self.assertEqual(differing, [], f"{what}: files differ (seed {SEED})")
+
+    def test_same_seed_same_bytes_and_thread_independence(self):
+        for scenario, extra in (("reference-streaks", ()), ("reference-voids", ("--dims", "3"))):
+            with self.subTest(scenario=scenario, extra=extra, seed=SEED):
+                base = os.path.join(WORK.name, "determinism-" + scenario + "-".join(extra))
+                one = phantoms(scenario_path(scenario), base + "-a", 4, *extra, "--threads", 1)
+                again = phantoms(scenario_path(scenario), base + "-b", 4, *extra, "--threads", 1)
+                two = phantoms(scenario_path(scenario), base + "-c", 4, *extra, "--threads", 2)
+                self.check_identical(one, again, "two runs, same seed")
+                self.check_identical(one, two, "--threads 1 vs --threads 2")
+                other = phantoms(scenario_path(scenario), base + "-d", 4, *extra, seed=SEED + 1)
+                for row in subjects_of(one):
+                    self.assertFalse(np.array_equal(load(one, row["image"])[1], load(other, row["image"])[1]),
+                                     f"seed {SEED} and {SEED + 1} give the same {row['image']}")
+
+
+# ----------------------------------------------------------------------------------------------
+# 7. Rescans
+
+
+def rigid_fit(before, after):
+    """Least-squares rotation R and shift t with after ~ R before + t (Kabsch 1976, Acta Cryst
+    A32:922, by numpy.linalg.svd), and the largest residual."""
+    mean_before, mean_after = before.mean(axis=0), after.mean(axis=0)
+    h = (before - mean_before).T @ (after - mean_after)
+    u, _, vt = np.linalg.svd(h)
+    d = np.sign(np.linalg.det(vt.T @ u.T))
+    correction = np.eye(before.shape[1])
+    correction[-1, -1] = d
+    rotation = vt.T @ correction @ u.T
+    shift = mean_after - rotation @ mean_before
+    residual = np.abs(before @ rotation.T + shift - after).max()
+    return rotation, shift, residual
+
+
+class RescanTest(unittest.TestCase):
+    def check_rescans(self, key, *extra):
+        folder = phantom_set(key, scenario_path("reference-streaks"), 3, "--rescans", 1, *extra)
+        shape, _ = geometry_of(folder)
+        ndim = len(shape)
+        limits = manifest(folder)["scenario"]["rescan"]
+        max_angle = math.radians(float(limits["max_rotation_deg"]))
+        max_shift = float(limits["max_shift_mm"])
+        truth = read_table(os.path.join(folder, "truth.csv"))
+        objects = read_table(os.path.join(folder, "objects.csv"))
+        for subject in sorted({row["subject"] for row in truth}):
+            with self.subTest(set=key, seed=SEED, subject=subject):
+                rows = {row["rescan"]: row for row in truth if row["subject"] == subject}
+                self.assertEqual(sorted(rows), ["0", "1"])
+                # Same anatomy and lesions: same count and the same objects (phantoms/phantom_set.h).
+                self.assertEqual(rows["0"]["count"], rows["1"]["count"])
+                first = {o["object"]: o for o in objects if o["subject"] == subject and o["rescan"] == "0"}
+                second = {o["object"]: o for o in objects if o["subject"] == subject and o["rescan"] == "1"}
+                self.assertEqual(sorted(first), sorted(second), "object ids")
+                for name, o in first.items():
+                    for column in ("kind", "length_mm", "width_mm", "contrast", "volume_mm3"):
+                        self.assertEqual(o[column], second[name][column], f"object {name} {column}")
+                # Centres move by a rotation of at most max_rotation_deg about the image centre
+                # (the world origin) and a shift of at most max_shift_mm per axis (pose.h), so by at
+                # most sqrt(dims)*max_shift + angle*radius (triangle inequality, |Rc - c| <= angle*|c|).
+                axes = ["centre_x_mm", "centre_y_mm", "centre_z_mm"][:ndim]
+                c0 = np.array([[float(first[i][a]) for a in axes] for i in sorted(first)])
+                c1 = np.array([[float(second[i][a]) for a in axes] for i in sorted(first)])
+                bound = math.sqrt(ndim) * max_shift + max_angle * np.linalg.norm(c0, axis=1) + 1e-6
+                moved = np.linalg.norm(c1 - c0, axis=1)
+                self.assertTrue(np.all(moved <= bound), f"moved {moved} bound {bound}")
+                # The motion is one rigid pose for every object (Kabsch fit; CSV has 9 digits).
+                if len(first) >= ndim + 1:
+                    rotation, shift, residual = rigid_fit(c0, c1)
+                    self.assertLess(residual, 1e-4, "centres follow one rigid pose")
+                    angle = math.acos(np.clip((np.trace(rotation) - (1 if ndim == 3 else 0)) / 2.0, -1.0, 1.0))
+                    self.assertLessEqual(angle, max_angle + 1e-6)
+                    self.assertTrue(np.all(np.abs(shift) <= max_shift + 1e-4), f"shift {shift}")
+                    d0 = np.array([[float(first[i]["direction_" + a]) for a in "xyz"[:ndim]] for i in sorted(first)])
+                    d1 = np.array([[float(second[i]["direction_" + a]) for a in "xyz"[:ndim]] for i in sorted(first)])
+                    self.assertLess(np.abs(d0 @ rotation.T - d1).max(), 1e-4, "directions turn with the pose")
+                # A new acquisition: the image differs.
+                _, image0 = load(folder, rows["0"]["image"])
+                _, image1 = load(folder, rows["1"]["image"])
+                self.assertFalse(np.array_equal(image0, image1))
+                self.assertTrue(rows["1"]["image"].endswith("_rescan1.nii.gz"))
+
+    def test_2d(self):
+        self.check_rescans("rescans-2d")
+
+    def test_3d(self):
+        self.check_rescans("rescans-3d", "--dims", "3")
+
+
+# ----------------------------------------------------------------------------------------------
+# 8. Bad input through the command line
+
+
+class BadInputTest(unittest.TestCase):
+    # A user error exits with code 2 and a message naming the file and the key (DESIGN.md §6).
+
+    def expect_user_error(self, args, must_mention, out):
+        done = run_frugal("phantoms", *args, "--out", out, "--count", 1)
+        self.assertEqual(done.returncode, 2, f"{args}: exit {done.returncode}, stderr {done.stderr!r}")
+        for text in must_mention:
+            self.assertIn(text, done.stderr, f"{args}: stderr {done.stderr!r}")
+        self.assertNotIn("terminate called", done.stderr)
+        return done
+
+    def test_bad_scenarios(self):
+        cases = [
+            ("unknown-key", [(r"^psf_fwhm_mm:", "colour_scheme: pink\npsf_fwhm_mm:")], "colour_scheme"),
+            ("unknown-nested-key", [(r"^  sigma: 0.04", "  sigma: 0.04\n  sigma_scale: 2")], "sigma_scale"),
+            ("wrong-type", [(r"^  sigma: 0.04", "  sigma: lots")], "noise.sigma"),
+            ("wrong-type-list", [(r"min_separation_mm: 2.0", "min_separation_mm: [1, 2]")], "min_separation_mm"),
+            ("out-of-range", [(r"^  sigma: 0.04", "  sigma: -3")], "noise.sigma"),
+            ("out-of-range-dims", [(r"^  dims: 2", "  dims: 5")], "geometry.dims"),
+            ("bad-choice", [(r"model: rician", "model: salt_and_pepper")], "noise.model"),
+        ]
+        for name, edits, key in cases:
+            with self.subTest(case=name):
+                path = edited_scenario("reference-streaks", edits, "bad-" + name)
+                out = os.path.join(WORK.name, "bad-out-" + name)
+                self.expect_user_error([path], [os.path.basename(path), key], out)
+                # Files are written whole or not at all: no output folder for a rejected scenario.
+                self.assertFalse(os.path.exists(os.path.join(out, "manifest.json")))
+
+    def test_dims_out_of_range(self):
+        for dims in ("4", "1"):
+            with self.subTest(dims=dims):
+                self.expect_user_error([scenario_path("reference-streaks"), "--dims", dims], ["--dims"],
+                                       os.path.join(WORK.name, "bad-dims-" + dims))
+
+    def test_finished_folder_needs_overwrite(self):
+        folder = phantoms(scenario_path("reference-streaks"), os.path.join(WORK.name, "finished"), 1)
+        before = folder_files(folder)
+        self.expect_user_error([scenario_path("reference-streaks"), "--seed", SEED + 5], ["finished", "--overwrite"],
+                               folder)
+        self.assertEqual(folder_files(folder), before, "a refused run leaves the finished set alone")
+        phantoms(scenario_path("reference-streaks"), folder, 1, "--overwrite")
+
+
+def main():
+    global FRUGAL, SOURCE, WORK
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--frugal", required=True, help="path of the frugal executable")
+    parser.add_argument("--source", required=True, help="repository root")
+    arguments, rest = parser.parse_known_args()
+    FRUGAL, SOURCE = os.path.abspath(arguments.frugal), os.path.abspath(arguments.source)
+    WORK = tempfile.TemporaryDirectory(prefix="frugal-phantom-reference-")
+    try:
+        program = unittest.main(argv=[sys.argv[0]] + rest, exit=False, verbosity=2)
+    finally:
+        WORK.cleanup()
+    sys.exit(0 if program.result.wasSuccessful() else 1)
+
+
+if __name__ == "__main__":
+    main()
