@@ -229,7 +229,7 @@ class StreaksTruthTest(unittest.TestCase):
 
                 # Every labelled voxel of each kind belongs to an object of that kind: summed mask
                 # volumes per kind equal the voxel counts of the label codes (phantoms/subject.h).
-                for code, kind in ((2, "lesion"), (3, "dot_distractor"), (4, "line_distractor")):
+                for code, kind in ((2, "lesion"), (3, "dot"), (4, "line")):
                     mask_sum = sum(float(o["mask_volume_mm3"]) for o in rows if o["kind"] == kind)
                     self.assertAlmostEqual(mask_sum, (labels == code).sum() * volume, delta=1e-6, msg=kind)
 
