@@ -7,9 +7,11 @@
 
 #include "cli/commands.h"
 #include "frugal_version.h"
+#include "phantoms/allocation_tuning.h"
 #include "phantoms/user_error.h"
 
 int main(int argc, char** argv) {
+  frugal::keep_freed_image_memory();
   CLI::App app{"frugal: plan expert-annotation budgets on synthetic phantoms with exact truth.\n"
                "Results describe synthetic phantoms; they do not validate a method for clinical use."};
   app.set_version_flag("--version", std::string("frugal ") + frugal::kVersion);

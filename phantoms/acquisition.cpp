@@ -8,11 +8,31 @@
 
 namespace frugal {
 
-double draw_confounder_score(const ConfounderOptions& options, double target, double target_mean,
-                             double target_sd, RandomStream& random) {
+Confounder draw_confounder(const ConfounderOptions& options, Family family, double target, double target_mean,
+                           double target_sd, RandomStream& random) {
   const double standardised = target_sd > 0.0 ? (target - target_mean) / target_sd : 0.0;
   const double rho = options.correlation;
-  return rho * standardised + std::sqrt(std::max(0.0, 1.0 - rho * rho)) * random.normal();
+  const double score = rho * standardised + std::sqrt(std::max(0.0, 1.0 - rho * rho)) * random.normal();
+  Confounder confounder;
+  switch (options.factor) {
+    case ConfounderFactor::none:
+      confounder.value = family == Family::voids ? 0.0 : 1.0;
+      break;
+    case ConfounderFactor::field_size:
+      confounder.size_factor = std::clamp(1.0 + options.spread * score, kMinSizeFactor, kMaxSizeFactor);
+      confounder.value = confounder.size_factor;
+      break;
+    case ConfounderFactor::global_intensity:
+      if (family == Family::voids) {
+        confounder.shift_hu = options.spread * score;  // e.g. a different inspiration level
+        confounder.value = confounder.shift_hu;
+      } else {
+        confounder.gain = std::max(0.05, 1.0 + options.spread * score);
+        confounder.value = confounder.gain;
+      }
+      break;
+  }
+  return confounder;
 }
 
 RigidPose rescan_pose(const ScenarioOptions& scenario, std::uint64_t seed, int subject, int rescan) {
@@ -21,14 +41,31 @@ RigidPose rescan_pose(const ScenarioOptions& scenario, std::uint64_t seed, int s
   return draw_pose(scenario.rescan, scenario.geometry.dims, random);
 }
 
-void apply_pose(RestSubject& rest, const RigidPose& pose, float outside_value) {
-  if (pose.is_identity()) return;
-  rest.signal = resample_linear(rest.signal, pose, outside_value);
-  rest.field = resample_nearest(rest.field, pose);
-  rest.instances = resample_nearest(rest.instances, pose);
-  for (ObjectRecord& object : rest.truth.objects) {
-    object.centre_mm = pose.apply(object.centre_mm);
-    object.direction = pose.rotate(object.direction);
+void pose_and_draw_objects(RestSubject& rest, const RigidPose& pose, float outside_value) {
+  FRUGAL_CHECK(rest.shapes.size() == rest.truth.objects.size());
+  if (!pose.is_identity()) {
+    rest.signal = resample_linear(rest.signal, pose, outside_value);
+    rest.field = resample_nearest(rest.field, pose);
+    rest.instances = resample_nearest(rest.instances, pose);
+    for (ObjectRecord& object : rest.truth.objects) {
+      object.centre_mm = pose.apply(object.centre_mm);
+      object.direction = pose.rotate(object.direction);
+    }
+    for (ObjectShape& shape : rest.shapes) {
+      shape.spheroid.centre_mm = pose.apply(shape.spheroid.centre_mm);
+      shape.spheroid.direction = pose.rotate(shape.spheroid.direction);
+      shape.capsule.centre_mm = pose.apply(shape.capsule.centre_mm);
+      shape.capsule.direction = pose.rotate(shape.capsule.direction);
+    }
+  }
+  for (std::size_t n = 0; n < rest.shapes.size(); ++n) {
+    const ObjectShape& shape = rest.shapes[n];
+    const auto id = static_cast<std::uint16_t>(n + 1);
+    const LabelImage* allowed = shape.clip_to_field ? &rest.field : nullptr;
+    if (shape.is_capsule)
+      render(shape.capsule, shape.shown_contrast, id, rest.signal, rest.instances, allowed);
+    else
+      render(shape.spheroid, shape.shown_contrast, id, rest.signal, rest.instances, allowed);
   }
 }
 

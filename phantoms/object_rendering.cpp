@@ -2,6 +2,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <vector>
 
 namespace frugal {
 
@@ -29,6 +30,8 @@ struct SpheroidLevel {
     return std::sqrt(s.semi_long_mm * s.semi_long_mm * u * u + s.semi_short_mm * s.semi_short_mm * (1.0 - u * u));
   }
   const Vec& centre() const { return s.centre_mm; }
+  const Vec& direction() const { return s.direction; }
+  double axis_half_length() const { return s.semi_long_mm; }
 };
 
 struct CapsuleLevel {
@@ -43,7 +46,44 @@ struct CapsuleLevel {
   }
   double extent(std::size_t axis) const { return c.half_length_mm * std::abs(c.direction[axis]) + c.radius_mm; }
   const Vec& centre() const { return c.centre_mm; }
+  const Vec& direction() const { return c.direction; }
+  double axis_half_length() const { return c.half_length_mm; }
 };
+
+// Whether the voxels labelled `id` inside the box [low, high] form exactly one component
+// (26-connected in 3D, 8-connected in 2D).
+bool is_one_component(const InstanceImage& instances, std::uint16_t id, const int low[3], const int high[3], bool flat) {
+  const int nx = high[0] - low[0] + 1, ny = high[1] - low[1] + 1, nz = high[2] - low[2] + 1;
+  std::vector<std::uint8_t> state(static_cast<std::size_t>(nx) * static_cast<std::size_t>(ny) * static_cast<std::size_t>(nz), 0);
+  const auto local = [&](int i, int j, int k) {
+    return (static_cast<std::size_t>(k - low[2]) * static_cast<std::size_t>(ny) + static_cast<std::size_t>(j - low[1])) *
+               static_cast<std::size_t>(nx) + static_cast<std::size_t>(i - low[0]);
+  };
+  int components = 0;
+  std::vector<std::array<int, 3>> stack;
+  for (int k = low[2]; k <= high[2]; ++k)
+    for (int j = low[1]; j <= high[1]; ++j)
+      for (int i = low[0]; i <= high[0]; ++i) {
+        if (instances.at(i, j, k) != id || state[local(i, j, k)] != 0) continue;
+        if (++components > 1) return false;
+        stack.push_back({i, j, k});
+        state[local(i, j, k)] = 1;
+        while (!stack.empty()) {
+          const auto [ci, cj, ck] = stack.back();
+          stack.pop_back();
+          for (int dk = flat ? 0 : -1; dk <= (flat ? 0 : 1); ++dk)
+            for (int dj = -1; dj <= 1; ++dj)
+              for (int di = -1; di <= 1; ++di) {
+                const int x = ci + di, y = cj + dj, z = ck + dk;
+                if (x < low[0] || x > high[0] || y < low[1] || y > high[1] || z < low[2] || z > high[2]) continue;
+                if (instances.at(x, y, z) != id || state[local(x, y, z)] != 0) continue;
+                state[local(x, y, z)] = 1;
+                stack.push_back({x, y, z});
+              }
+        }
+      }
+  return components == 1;
+}
 
 template <class Level>
 RenderedObject render_level(const Level& level, float contrast, std::uint16_t id, FloatImage& image,
@@ -68,6 +108,13 @@ RenderedObject render_level(const Level& level, float contrast, std::uint16_t id
   if (flat) low[2] = high[2] = 0;
 
   RenderedObject result;
+  const auto label = [&](int i, int j, int k) {
+    if (instances.at(i, j, k) != 0) return;
+    instances.at(i, j, k) = id;
+    ++result.labelled_voxels;
+    if (result.lowest_slice < 0 || k < result.lowest_slice) result.lowest_slice = k;
+    result.highest_slice = std::max(result.highest_slice, k);
+  };
   for (int k = low[2]; k <= high[2]; ++k)
     for (int j = low[1]; j <= high[1]; ++j)
       for (int i = low[0]; i <= high[0]; ++i) {
@@ -93,13 +140,27 @@ RenderedObject render_level(const Level& level, float contrast, std::uint16_t id
         if (coverage <= 0.0) continue;
         image.at(i, j, k) += contrast * static_cast<float>(coverage);
         result.covered_voxels += coverage;
-        if (coverage >= 0.5 && instances.at(i, j, k) == 0) {
-          instances.at(i, j, k) = id;
-          ++result.labelled_voxels;
-          if (result.lowest_slice < 0 || k < result.lowest_slice) result.lowest_slice = k;
-          result.highest_slice = std::max(result.highest_slice, k);
-        }
+        if (at_centre <= 0.0) label(i, j, k);
       }
+  // A thin slanted object can fall apart between voxel centres, or miss every centre. Only then
+  // the voxels its long axis crosses join the label, so every object is one 26-connected (8 in
+  // 2D) component while objects that are already whole keep the unbiased centre rule.
+  if (!is_one_component(instances, id, low, high, flat)) {
+    const double step = 0.25 * std::min({g.spacing_mm[0], g.spacing_mm[1], flat ? g.spacing_mm[0] : g.spacing_mm[2]});
+    const double half = level.axis_half_length();
+    const int samples = static_cast<int>(std::ceil(2.0 * half / step));
+    for (int n = 0; n <= samples; ++n) {
+      const double t = samples > 0 ? -half + 2.0 * half * n / samples : 0.0;
+      int index[3];
+      for (std::size_t axis = 0; axis < 3; ++axis)
+        index[axis] = static_cast<int>(std::lround(
+            (level.centre()[axis] + t * level.direction()[axis] - g.origin_mm[axis]) / g.spacing_mm[axis]));
+      if (flat) index[2] = 0;
+      if (index[0] < 0 || index[0] >= s.x || index[1] < 0 || index[1] >= s.y || index[2] < 0 || index[2] >= s.z) continue;
+      if (allowed != nullptr && allowed->at(index[0], index[1], index[2]) == 0) continue;
+      label(index[0], index[1], index[2]);
+    }
+  }
   return result;
 }
 

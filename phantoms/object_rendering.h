@@ -1,7 +1,9 @@
 #pragma once
 // Draws analytic objects into an image with partial-volume edges: each voxel receives
 // contrast x (fraction of the voxel inside the object), found by supersampling only the voxels
-// that the boundary can cross. A voxel at least half covered is labelled with the object's id.
+// that the boundary can cross. A voxel is labelled with the object's id when its centre lies
+// inside the object (an unbiased discrete volume); when that leaves a thin object in pieces or
+// empty, the voxels its long axis crosses join, so every object is one connected component.
 
 #include <array>
 #include <cstdint>
@@ -28,7 +30,7 @@ struct Capsule {
 };
 
 struct RenderedObject {
-  std::int64_t labelled_voxels = 0;  // voxels whose coverage >= 0.5
+  std::int64_t labelled_voxels = 0;  // voxels labelled with this object's id
   double covered_voxels = 0.0;       // summed coverage: the discrete volume in voxels
   int lowest_slice = -1, highest_slice = -1;  // z range of labelled voxels
 };

@@ -11,7 +11,7 @@ namespace {
 Subject generate_streaks(const ScenarioOptions& scenario, std::uint64_t seed, int subject, int rescan) {
   Confounder confounder;
   RestSubject rest = draw_streaks_at_rest(scenario, seed, subject, confounder);
-  apply_pose(rest, rescan_pose(scenario, seed, subject, rescan), 0.0F);
+  pose_and_draw_objects(rest, rescan_pose(scenario, seed, subject, rescan), 0.0F);
   Subject result;
   result.truth = std::move(rest.truth);
   result.truth.subject = subject;

@@ -41,7 +41,7 @@ struct BiasFieldOptions {
 struct ConfounderOptions {
   ConfounderFactor factor = ConfounderFactor::none;
   double correlation = 0.0;  // target correlation with the subject's target quantity, in [-1, 1]
-  double spread = 0.1;       // SD of the factor: relative for size and gain, HU for a voids shift
+  double spread = 0.1;       // SD of the factor: relative for size (<= 0.1) and gain, HU for a voids shift
 };
 
 struct RescanOptions {
@@ -75,7 +75,8 @@ struct StreaksOptions {
   Distribution line_length_mm = Distribution::uniform_between(25.0, 50.0);
   Distribution line_width_mm = Distribution::uniform_between(0.6, 1.0);
   Distribution line_contrast = Distribution::uniform_between(0.2, 0.5);
-  double white_matter = 1.0, grey_matter = 0.75, csf = 0.3;  // FLAIR-like tissue intensities
+  // FLAIR-like: grey matter a little brighter than white matter, CSF dark, lesions bright.
+  double white_matter = 1.0, grey_matter = 1.15, csf = 0.3;
 };
 
 struct VoidsOptions {

@@ -157,6 +157,17 @@ void read_voids(YamlFields& fields, VoidsOptions& v) {
   fields.finish();
 }
 
+// Line of the key path that starts a validate() message ("streaks.count.mean is ..."), or 0.
+int line_of_key_path(const YAML::Node& node, const std::string& path) {
+  const auto dot = path.find('.');
+  const std::string key = path.substr(0, dot);
+  if (!node.IsMap() || !node[key]) return 0;
+  const YAML::Node value = node[key];
+  if (dot == std::string::npos) return value.Mark().line + 1;
+  const int deeper = line_of_key_path(value, path.substr(dot + 1));
+  return deeper > 0 ? deeper : value.Mark().line + 1;
+}
+
 }  // namespace
 
 ScenarioOptions read_scenario(const YAML::Node& root, const std::string& file) {
@@ -214,8 +225,11 @@ ScenarioOptions read_scenario(const YAML::Node& root, const std::string& file) {
       read_voids(section, options.voids);
   }
   fields.finish();
-  if (std::string error = options.validate(); !error.empty())
-    throw UserError(file + ": " + error + " (see docs/scenarios.md)");
+  if (std::string error = options.validate(); !error.empty()) {
+    const int line = line_of_key_path(root, error.substr(0, error.find_first_of(" :")));
+    throw UserError(file + (line > 0 ? ":" + std::to_string(line) : std::string()) + ": " + error +
+                    " (see docs/scenarios.md)");
+  }
   return options;
 }
 

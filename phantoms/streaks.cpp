@@ -18,16 +18,36 @@ double smoothstep(double edge0, double edge1, double x) {
 }
 
 // The head: an ellipsoid (an ellipse in 2D) centred on the image.
-struct Head {
-  Vec semi_axes{};
+// An axis-aligned ellipsoid (an ellipse in 2D, where z is ignored).
+struct Ellipsoid {
+  Vec centre{};
+  Vec inverse_semi_axes{};
   bool flat = true;
-  // Squared normalised ellipsoidal radius: 1 on the boundary.
+  Ellipsoid(const Vec& centre_mm, const Vec& semi_axes_mm, bool is_flat)
+      : centre(centre_mm),
+        inverse_semi_axes{1.0 / semi_axes_mm[0], 1.0 / semi_axes_mm[1], 1.0 / semi_axes_mm[2]},
+        flat(is_flat) {}
+  // Squared normalised radius: 1 on the boundary.
   double radius_squared(const Vec& p) const {
-    double q = 0.0;
-    for (std::size_t axis = 0; axis < (flat ? 2U : 3U); ++axis) q += (p[axis] / semi_axes[axis]) * (p[axis] / semi_axes[axis]);
-    return q;
+    const double x = (p[0] - centre[0]) * inverse_semi_axes[0], y = (p[1] - centre[1]) * inverse_semi_axes[1];
+    const double z = flat ? 0.0 : (p[2] - centre[2]) * inverse_semi_axes[2];
+    return x * x + y * y + z * z;
   }
   double radius(const Vec& p) const { return std::sqrt(radius_squared(p)); }
+};
+
+// The head: an ellipsoid centred on the image, with two ventricles near its centre.
+struct Head : Ellipsoid {
+  Vec semi_axes;
+  Ellipsoid ventricles[2];
+  Head(const Vec& semi_axes_mm, bool is_flat)
+      : Ellipsoid({0.0, 0.0, 0.0}, semi_axes_mm, is_flat),
+        semi_axes(semi_axes_mm),
+        ventricles{ventricle(-1.0, semi_axes_mm, is_flat), ventricle(1.0, semi_axes_mm, is_flat)} {}
+  static Ellipsoid ventricle(double side, const Vec& head, bool is_flat) {
+    return Ellipsoid({side * 0.12 * head[0], -0.05 * head[1], 0.0}, {0.07 * head[0], 0.22 * head[1], 0.15 * head[2]},
+                     is_flat);
+  }
 };
 
 CoarseGrid random_grid(const Shape& fine, int step, RandomStream& random) {
@@ -40,19 +60,13 @@ CoarseGrid random_grid(const Shape& fine, int step, RandomStream& random) {
 }
 
 // Tissue intensity at normalised radius r (perturbed), with two ventricles near the centre.
-double tissue(const StreaksOptions& s, const Head& head, const Vec& p, double wobble) {
-  const double r = head.radius(p) + 0.05 * wobble;
+double tissue(const StreaksOptions& s, const Head& head, double head_radius, const Vec& p, double wobble) {
+  const double r = head_radius + 0.05 * wobble;
   double value = s.white_matter + (s.grey_matter - s.white_matter) * smoothstep(0.70, 0.76, r);
   value += (s.csf - s.grey_matter) * smoothstep(0.88, 0.93, r);
-  for (double side : {-1.0, 1.0}) {
-    const Vec c{side * 0.12 * head.semi_axes[0], -0.05 * head.semi_axes[1], 0.0};
-    const Vec a{0.07 * head.semi_axes[0], 0.22 * head.semi_axes[1], 0.15 * head.semi_axes[2]};
-    double q = 0.0;
-    for (std::size_t axis = 0; axis < (head.flat ? 2U : 3U); ++axis) {
-      const double t = (p[axis] - c[axis]) / a[axis];
-      q += t * t;
-    }
-    value += (s.csf - value) * (1.0 - smoothstep(0.8, 1.2, std::sqrt(q)));
+  for (const Ellipsoid& ventricle : head.ventricles) {
+    const double q = ventricle.radius_squared(p);
+    if (q < 1.44) value += (s.csf - value) * (1.0 - smoothstep(0.8, 1.2, std::sqrt(q)));  // 1.44 = 1.2^2
   }
   return value;
 }
@@ -154,23 +168,14 @@ RestSubject draw_streaks_at_rest(const ScenarioOptions& scenario, std::uint64_t 
 
   // The target quantity is drawn first so that a confounder can be tied to it.
   const int drawn_count = s.count.sample(lesions);
-  const double score = draw_confounder_score(scenario.confounder, drawn_count, s.count.expected(), s.count.spread(), nuisance);
-  const double factor = std::max(0.05, 1.0 + scenario.confounder.spread * score);
-  double size_factor = 1.0;
-  confounder = Confounder{};
-  if (scenario.confounder.factor == ConfounderFactor::field_size) {
-    size_factor = std::min(factor, 1.15);  // keep the head inside the image
-    confounder.value = size_factor;
-  } else if (scenario.confounder.factor == ConfounderFactor::global_intensity) {
-    confounder.value = confounder.gain = factor;
-  }
-
-  Head head;
-  head.flat = flat;
+  confounder = draw_confounder(scenario.confounder, Family::streaks, drawn_count, s.count.expected(), s.count.spread(),
+                               nuisance);
   const int extents[3] = {shape.x, shape.y, shape.z};
-  const double fill[3] = {0.40, 0.44, 0.40};
+  const double fill[3] = {0.34, 0.37, 0.34};  // x kMaxSizeFactor stays inside the image
+  Vec semi_axes{};
   for (std::size_t axis = 0; axis < 3; ++axis)
-    head.semi_axes[axis] = fill[axis] * extents[axis] * geometry.spacing_mm[axis] * anatomy.uniform(0.9, 1.0) * size_factor;
+    semi_axes[axis] = fill[axis] * extents[axis] * geometry.spacing_mm[axis] * anatomy.uniform(0.9, 1.0) * confounder.size_factor;
+  const Head head(semi_axes, flat);
 
   // Tissue and bias on a coarse node grid (every second voxel), then upsampled.
   constexpr int kNodeStep = 2;
@@ -190,9 +195,12 @@ RestSubject draw_streaks_at_rest(const ScenarioOptions& scenario, std::uint64_t 
     for (int j = 0; j < nodes.y; ++j)
       for (int i = 0; i < nodes.x; ++i) {
         const Vec p = geometry.world_mm(i * kNodeStep, j * kNodeStep, k * kNodeStep);
-        const double inside = 1.0 - smoothstep(0.985, 1.015, head.radius(p));
+        const double head_radius = head.radius(p);
         const std::size_t n = bias.index(i, j, k);
-        background.values[n] = static_cast<float>(inside * tissue(s, head, p, wobble.data()[n]) * bias.data()[n]);
+        if (head_radius > 1.1) continue;  // air outside the head; the grid starts at zero
+        const double inside = 1.0 - smoothstep(0.985, 1.015, head_radius);
+        background.values[n] =
+            static_cast<float>(inside * tissue(s, head, head_radius, p, wobble.data()[n]) * bias.data()[n]);
       }
 
   RestSubject rest;
@@ -228,18 +236,21 @@ RestSubject draw_streaks_at_rest(const ScenarioOptions& scenario, std::uint64_t 
     record.width_mm = width;
     record.contrast = contrast;
     const double a = 0.5 * length, b = 0.5 * width;
-    const auto id = static_cast<std::uint16_t>(record.id);
-    const auto shown = static_cast<float>(contrast * bias_at(centre));
+    ObjectShape drawn;
+    drawn.shown_contrast = static_cast<float>(contrast * bias_at(centre));
     if (kind == ObjectKind::line_distractor) {
       const double half = std::max(0.0, a - b);
       record.volume_mm3 = flat ? (2.0 * half * width + M_PI * b * b) * slice_mm
                                : M_PI * b * b * 2.0 * half + 4.0 / 3.0 * M_PI * b * b * b;
-      render(Capsule{centre, direction, half, b}, shown, id, rest.signal, rest.instances, &rest.field);
+      drawn.is_capsule = true;
+      drawn.capsule = Capsule{centre, direction, half, b};
+      drawn.clip_to_field = true;  // long lines may reach the edge of the head
     } else {
       record.volume_mm3 = flat ? M_PI * a * b * slice_mm : 4.0 / 3.0 * M_PI * a * b * b;
-      render(Spheroid{centre, direction, a, b}, shown, id, rest.signal, rest.instances);
+      drawn.spheroid = Spheroid{centre, direction, a, b};
     }
     truth.objects.push_back(record);
+    rest.shapes.push_back(drawn);
   };
 
   // Lesions, optionally with a share of them in one cluster region.

@@ -20,14 +20,10 @@ constexpr double kVoidTexture = 0.3;         // share of the parenchymal texture
 
 struct Ellipsoid {
   Vec centre{}, semi_axes{};
-  double radius(const Vec& p, bool flat) const {
-    double q = 0.0;
-    for (std::size_t axis = 0; axis < (flat ? 2U : 3U); ++axis)
-    {
-      const double t = (p[axis] - centre[axis]) / semi_axes[axis];
-      q += t * t;
-    }
-    return std::sqrt(q);
+  double radius_squared(const Vec& p, bool flat) const {
+    const double x = (p[0] - centre[0]) / semi_axes[0], y = (p[1] - centre[1]) / semi_axes[1];
+    const double z = flat ? 0.0 : (p[2] - centre[2]) / semi_axes[2];
+    return x * x + y * y + z * z;
   }
 };
 
@@ -61,6 +57,27 @@ FloatImage smooth_noise(const Geometry& geometry, double scale_mm, RandomStream&
   return field;
 }
 
+// A broad smooth field (scale several voxels): white noise on a coarse grid, filtered there and
+// upsampled, which costs a fraction of filtering at full resolution. Scaled to unit SD.
+FloatImage broad_smooth_noise(const Geometry& geometry, double scale_mm, RandomStream& random) {
+  const double finest_spacing = std::min({geometry.spacing_mm[0], geometry.spacing_mm[1], geometry.spacing_mm[2]});
+  const int step = std::max(1, static_cast<int>(scale_mm / (2.0 * finest_spacing)));
+  Geometry coarse = centred_geometry(coarse_extent(geometry.shape, step), geometry.spacing_mm);
+  for (double& spacing : coarse.spacing_mm) spacing *= step;
+  const FloatImage coarse_field = smooth_noise(coarse, scale_mm, random);
+  FloatImage field = upsample(CoarseGrid{coarse.shape, step, coarse_field.voxels()}, geometry);
+  double sum = 0.0, sum2 = 0.0;
+  for (float v : field.voxels()) {
+    sum += v;
+    sum2 += static_cast<double>(v) * v;
+  }
+  const double n = static_cast<double>(field.size());
+  const double sd = std::sqrt(std::max(sum2 / n - (sum / n) * (sum / n), 1e-12));
+  const auto mean = static_cast<float>(sum / n), unit = static_cast<float>(1.0 / sd);
+  for (float& v : field.voxels()) v = (v - mean) * unit;
+  return field;
+}
+
 Anatomy draw_anatomy(const ScenarioOptions& scenario, const Shape& shape, double size_factor, double shift_hu,
                      RandomStream& random) {
   Anatomy a;
@@ -73,7 +90,7 @@ Anatomy draw_anatomy(const ScenarioOptions& scenario, const Shape& shape, double
     Ellipsoid& lung = a.lungs[side];
     const double jitter = random.uniform(0.9, 1.0) * size_factor;
     lung.centre = {(side == 0 ? -1.0 : 1.0) * 0.22 * extent[0], random.uniform(-0.02, 0.02) * extent[1], 0.0};
-    lung.semi_axes = {0.17 * extent[0] * jitter, 0.30 * extent[1] * jitter, 0.40 * extent[2] * jitter};
+    lung.semi_axes = {0.17 * extent[0] * jitter, 0.30 * extent[1] * jitter, 0.36 * extent[2] * jitter};  // x kMaxSizeFactor stays in the body
   }
   a.parenchyma_hu = scenario.voids.parenchyma_hu + shift_hu;
   a.texture = smooth_noise(a.geometry, scenario.voids.texture_scale_mm, random);
@@ -84,10 +101,10 @@ Anatomy draw_anatomy(const ScenarioOptions& scenario, const Shape& shape, double
     for (int j = 0; j < shape.y; ++j)
       for (int i = 0; i < shape.x; ++i) {
         const Vec p = a.geometry.world_mm(i, j, k);
-        const double r = std::min(a.lungs[0].radius(p, a.flat), a.lungs[1].radius(p, a.flat));
-        if (r > 1.0) continue;
+        const double r2 = std::min(a.lungs[0].radius_squared(p, a.flat), a.lungs[1].radius_squared(p, a.flat));
+        if (r2 > 1.0) continue;
         a.field.at(i, j, k) = 1;
-        a.lung_radius.at(i, j, k) = static_cast<float>(r);
+        a.lung_radius.at(i, j, k) = static_cast<float>(std::sqrt(r2));
         a.field_voxels.push_back(a.field.index(i, j, k));
       }
   return a;
@@ -174,18 +191,22 @@ int build_region(const Anatomy& a, VoidPattern pattern, double target, const Pat
   return 0;
 }
 
-FloatImage render_signal(const Anatomy& a, const VoidsOptions& v, VoidPattern pattern, const InstanceImage& region) {
+// The noiseless image in the pose of a scan: field, region and texture already moved into it;
+// the body outline is evaluated analytically. Drawing after the pose keeps the region edges as
+// sharp in a rescan as in the first scan.
+FloatImage render_signal(const Anatomy& a, const VoidsOptions& v, VoidPattern pattern, const LabelImage& field,
+                         const InstanceImage& region, const FloatImage& texture, const RigidPose& pose) {
   FloatImage signal(a.geometry, kAirHu);
   const float void_hu = static_cast<float>(v.void_hu.at(pattern));
   for (int k = 0; k < a.geometry.shape.z; ++k)
     for (int j = 0; j < a.geometry.shape.y; ++j)
       for (int i = 0; i < a.geometry.shape.x; ++i) {
         const std::size_t n = signal.index(i, j, k);
-        if (a.field.data()[n] != 0) {
-          const float texture = a.texture.data()[n];
-          signal.data()[n] = region.data()[n] != 0 ? void_hu + static_cast<float>(kVoidTexture) * texture
-                                                   : static_cast<float>(a.parenchyma_hu) + texture;
-        } else if (a.body.radius(a.geometry.world_mm(i, j, k), a.flat) <= 1.0) {
+        if (field.data()[n] != 0) {
+          const float t = texture.data()[n];
+          signal.data()[n] = region.data()[n] != 0 ? void_hu + static_cast<float>(kVoidTexture) * t
+                                                   : static_cast<float>(a.parenchyma_hu) + t;
+        } else if (a.body.radius_squared(pose.inverse(a.geometry.world_mm(i, j, k)), a.flat) <= 1.0) {
           signal.data()[n] = static_cast<float>(v.body_hu);
         }
       }
@@ -219,25 +240,19 @@ Subject generate_voids(const ScenarioOptions& scenario, std::uint64_t seed, int 
   const VoidPattern pattern =
       v.patterns[static_cast<std::size_t>(pattern_random.uniform_int(0, static_cast<std::int64_t>(v.patterns.size()) - 1))];
   const double target = v.target.sample(pattern_random);
-  const double score = draw_confounder_score(scenario.confounder, target, v.target.expected(), v.target.spread(), nuisance);
-  Confounder confounder;
-  double size_factor = 1.0, shift_hu = 0.0;
-  if (scenario.confounder.factor == ConfounderFactor::field_size) {
-    size_factor = std::clamp(1.0 + scenario.confounder.spread * score, 0.5, 1.1);
-    confounder.value = size_factor;
-  } else if (scenario.confounder.factor == ConfounderFactor::global_intensity) {
-    shift_hu = scenario.confounder.spread * score;  // e.g. a different inspiration level
-    confounder.value = shift_hu;
-  } else {
-    confounder.value = 0.0;
-  }
-
-  const Anatomy anatomy = draw_anatomy(scenario, shape, size_factor, shift_hu, anatomy_random);
+  const Confounder confounder =
+      draw_confounder(scenario.confounder, Family::voids, target, v.target.expected(), v.target.spread(), nuisance);
+  const Anatomy anatomy = draw_anatomy(scenario, shape, confounder.size_factor, confounder.shift_hu, anatomy_random);
+  // Only the chosen pattern's field is drawn; each from its own stream, so the choice of pattern
+  // does not shift any other random number.
   PatternFields fields;
-  fields.diffuse = smooth_noise(anatomy.geometry, 6.0, anatomy_random);
-  fields.band = anatomy.lung_radius;
-  {
-    const FloatImage wobble = smooth_noise(anatomy.geometry, 8.0, anatomy_random);
+  if (pattern == VoidPattern::diffuse_thinning) {
+    RandomStream diffuse_random(seed, subject, StreamPurpose::pattern, 1);
+    fields.diffuse = broad_smooth_noise(anatomy.geometry, 6.0, diffuse_random);
+  } else if (pattern == VoidPattern::peripheral_band) {
+    RandomStream band_random(seed, subject, StreamPurpose::pattern, 2);
+    const FloatImage wobble = broad_smooth_noise(anatomy.geometry, 8.0, band_random);
+    fields.band = anatomy.lung_radius;
     for (std::size_t n = 0; n < fields.band.size(); ++n) fields.band.data()[n] += 0.04F * wobble.data()[n];
   }
 
@@ -245,10 +260,17 @@ Subject generate_voids(const ScenarioOptions& scenario, std::uint64_t seed, int 
   const RandomStream region_random = pattern_random;  // common random numbers while sizing
   const auto acquire_with = [&](double extent, int for_rescan, RestSubject& rest) {
     rest.truth.count = build_region(anatomy, pattern, extent, fields, region_random, region);
-    rest.signal = render_signal(anatomy, v, pattern, region);
-    rest.field = anatomy.field;
-    rest.instances = region;
-    apply_pose(rest, rescan_pose(scenario, seed, subject_index, for_rescan), kAirHu);
+    const RigidPose pose = rescan_pose(scenario, seed, subject_index, for_rescan);
+    if (pose.is_identity()) {
+      rest.field = anatomy.field;
+      rest.instances = region;
+      rest.signal = render_signal(anatomy, v, pattern, rest.field, rest.instances, anatomy.texture, pose);
+    } else {
+      rest.field = resample_nearest(anatomy.field, pose);
+      rest.instances = resample_nearest(region, pose);
+      const FloatImage texture = resample_linear(anatomy.texture, pose, 0.0F);  // smooth, so linear is faithful
+      rest.signal = render_signal(anatomy, v, pattern, rest.field, rest.instances, texture, pose);
+    }
     RandomStream noise(seed, subject, StreamPurpose::noise, static_cast<std::uint64_t>(for_rescan));
     acquire(rest.signal, scenario, 1.0, noise);
     for (float& value : rest.signal.voxels()) value = std::max(value, kScannerFloorHu);

@@ -31,7 +31,8 @@ std::string YamlFields::key_path(const std::string& key) const {
 std::string YamlFields::where(const std::string& key) const {
   YAML::Mark mark = node_.Mark();
   if (!key.empty() && has(key)) mark = node_[key].Mark();
-  return file_ + ":" + std::to_string(mark.line + 1) + ": '" + key_path(key) + "'";
+  const std::string path = key_path(key);
+  return file_ + ":" + std::to_string(mark.line + 1) + ": " + (path.empty() ? std::string("the top level") : "'" + path + "'");
 }
 
 void YamlFields::fail(const std::string& key, const std::string& message) const {

@@ -3,6 +3,7 @@
 
 #include <benchmark/benchmark.h>
 
+#include "phantoms/allocation_tuning.h"
 #include "phantoms/phantom.h"
 #include "phantoms/scenario.h"
 
@@ -18,6 +19,7 @@ frugal::ScenarioOptions scenario(frugal::Family family, int dims, int size) {
 }
 
 void generate(benchmark::State& state, frugal::Family family, int dims) {
+  frugal::keep_freed_image_memory();  // as the command line does
   const frugal::ScenarioOptions options = scenario(family, dims, static_cast<int>(state.range(0)));
   int subject = 0;
   for (auto _ : state) {

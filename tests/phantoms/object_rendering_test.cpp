@@ -5,6 +5,7 @@
 #include <cmath>
 
 #include "phantoms/image_ops.h"
+#include "experiments/measure/connected_components.h"
 #include "phantoms/random.h"
 
 namespace frugal {
@@ -43,10 +44,12 @@ void expect_unbiased_volume(MakeObject make, int dims, double analytic, const ch
     labelled_sum += static_cast<double>(drawn.rendered.labelled_voxels) / analytic;
   }
   EXPECT_NEAR(ratio_sum / placements, 1.0, 0.01) << what << " (seed 31)";
-  // The half-covered rule loses more boundary voxels than it gains on a convex object only 2-3
-  // voxels wide, so the labelled volume runs low: within 15% (partial-volume tolerance, common
-  // practice, no source), never above the continuous volume by more than 5%.
-  EXPECT_NEAR(labelled_sum / placements, 0.95, 0.10) << what << " (seed 31)";
+  // Labelling voxels whose centre is inside is unbiased (the share of centres inside equals the
+  // volume on average); the voxels added along the long axis can only add, by at most about one
+  // voxel per voxel of axis length: for objects 2-3 voxels wide the mean ratio lies in [0.97, 1.15]
+  // (partial-volume tolerance, common practice, no source).
+  EXPECT_GE(labelled_sum / placements, 0.97) << what << " (seed 31)";
+  EXPECT_LE(labelled_sum / placements, 1.15) << what << " (seed 31)";
 }
 
 TEST(ObjectRendering, PartialVolumeSumIsUnbiasedForSpheroidsEllipsesAndCapsules) {
@@ -55,6 +58,24 @@ TEST(ObjectRendering, PartialVolumeSumIsUnbiasedForSpheroidsEllipsesAndCapsules)
   expect_unbiased_volume([](auto c, auto d) { return Spheroid{c, d, 5.0, 1.0}; }, 2, M_PI * 5.0 * 1.0, "2D ellipse");
   expect_unbiased_volume([](auto c, auto d) { return Capsule{c, d, 8.0, 1.5}; }, 3,
                          M_PI * 1.5 * 1.5 * 16.0 + 4.0 / 3.0 * M_PI * 1.5 * 1.5 * 1.5, "3D capsule");
+}
+
+// However thin and slanted, every object is one 26-connected component and never vanishes.
+TEST(ObjectRendering, ThinObjectsStayOneConnectedComponent) {
+  RandomStream random(32, 0, StreamPurpose::lesions);
+  for (int n = 0; n < 200; ++n) {
+    std::array<double, 3> direction{random.normal(), random.normal(), random.normal()};
+    const double norm = std::sqrt(direction[0] * direction[0] + direction[1] * direction[1] + direction[2] * direction[2]);
+    for (double& c : direction) c /= norm;
+    const Spheroid thin{{random.uniform(-1, 1), random.uniform(-1, 1), random.uniform(-1, 1)}, direction,
+                        random.uniform(1.5, 6.0), random.uniform(0.3, 0.7)};
+    FloatImage image(centred_geometry({24, 24, 24}, {1.0, 1.0, 1.0}), 0.0F);
+    InstanceImage instances(image.geometry(), 0);
+    render(thin, 1.0F, 1, image, instances);
+    Image<std::uint8_t> mask(image.geometry(), 0);
+    for (std::size_t v = 0; v < mask.size(); ++v) mask.data()[v] = instances.data()[v] != 0 ? 1 : 0;
+    EXPECT_EQ(measure::label_components(mask, {26}).count, 1) << "object " << n << " (seed 32)";
+  }
 }
 
 TEST(ObjectRendering, SmallVoxelsConvergeToTheEllipseArea) {
