@@ -72,6 +72,19 @@ std::string subject_stem(int subject, int rescan) {
   return text;
 }
 
+// Removes what a phantom set writes, manifest first, so that a killed overwrite never looks finished
+// and no subject of an earlier, larger set is left behind. Other files in the folder stay.
+void remove_phantom_set(const fs::path& root) {
+  std::error_code ignored;
+  for (const char* name : {"manifest.json", "truth.csv", "objects.csv", "scenario.resolved.yaml", "preview.png"})
+    fs::remove(root / name, ignored);
+  for (const char* folder : {"images", "labels"}) {
+    if (!fs::is_directory(root / folder, ignored)) continue;
+    for (const auto& entry : fs::directory_iterator(root / folder, ignored))
+      if (entry.path().filename().string().rfind("subject_", 0) == 0) fs::remove(entry.path(), ignored);
+  }
+}
+
 struct FinishedSubject {
   std::string truth_rows;
   std::string object_rows;
@@ -92,9 +105,11 @@ nlohmann::json manifest_json(const ScenarioOptions& scenario, const std::string&
   manifest["count"] = options.count;
   manifest["rescans"] = options.rescans;
   manifest["dims"] = scenario.geometry.dims;
-  manifest["label_codes"] = {{"0", "outside"}, {"1", "field"}, {"2", "lesion"}, {"3", "dot_distractor"}, {"4", "line_distractor"}};
-  manifest["files"] = {{"truth", "truth.csv"},      {"objects", "objects.csv"},  {"preview", "preview.png"},
-                       {"scenario", "scenario.resolved.yaml"}, {"images", "images/"}, {"labels", "labels/"}};
+  // Names as objects.csv writes them in its 'kind' column.
+  manifest["label_codes"] = {{"0", "outside"}, {"1", "field"}, {"2", "lesion"}, {"3", "dot"}, {"4", "line"}};
+  manifest["files"] = {{"truth", "truth.csv"},           {"objects", "objects.csv"}, {"scenario", "scenario.resolved.yaml"},
+                       {"images", "images/"},            {"labels", "labels/"}};
+  if (options.preview_tiles > 0) manifest["files"]["preview"] = "preview.png";
   manifest["libraries"] = {{"opencv", CV_VERSION}};
   manifest["caution"] =
       "Synthetic phantoms. Results guide the design of a labelling plan and the choice of a method; they do not "
@@ -113,6 +128,7 @@ PhantomSetSummary write_phantom_set(const ScenarioOptions& scenario, const std::
   if (fs::exists(root / "manifest.json") && !options.overwrite)
     throw UserError(options.out_dir + ": already holds a finished phantom set (manifest.json); choose another folder "
                     "or pass --overwrite");
+  if (options.overwrite) remove_phantom_set(root);
   std::error_code made;
   fs::create_directories(root / "images", made);
   fs::create_directories(root / "labels", made);
@@ -206,7 +222,7 @@ PhantomSetSummary write_phantom_set(const ScenarioOptions& scenario, const std::
 
   PhantomSetSummary summary;
   summary.subjects = options.count;
-  summary.files = options.count * (options.rescans + 1) * 2 + 5;
+  summary.files = options.count * (options.rescans + 1) * 2 + 4 + (options.preview_tiles > 0 ? 1 : 0);
   summary.seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
   summary.manifest_path = (root / "manifest.json").string();
   return summary;

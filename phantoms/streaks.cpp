@@ -223,6 +223,7 @@ RestSubject draw_streaks_at_rest(const ScenarioOptions& scenario, std::uint64_t 
   SubjectTruth& truth = rest.truth;
   truth.family = Family::streaks;
   truth.confounder = confounder.value;
+  truth.target = drawn_count;
   Placer placer(head, s.min_separation_mm);
   const double slice_mm = geometry.spacing_mm[2];
   const auto add_object = [&](ObjectKind kind, const Vec& centre, const Vec& direction, double length, double width,

@@ -43,7 +43,8 @@ struct SubjectTruth {
   int subject = 0;
   int rescan = 0;
   Family family = Family::streaks;
-  int count = 0;                   // lesions in the image
+  double target = 0.0;             // the drawn target: lesion count (streaks), extent or densitometry (voids)
+  int count = 0;                   // streaks: lesions in the image; voids: holes or spaces painted
   int count_reference_slice = 0;   // lesions whose labelled voxels touch the reference slice
   int reference_slice = 0;
   double burden_mm3 = 0.0;         // summed analytic lesion volume (streaks); region volume (voids)

@@ -21,13 +21,13 @@ std::string csv_version_comment(const std::string& table) {
 }
 
 std::string truth_csv_header() {
-  return "subject,rescan,family,pattern,count,count_reference_slice,reference_slice,burden_mm3,affected_fraction,"
+  return "subject,rescan,family,pattern,target,count,count_reference_slice,reference_slice,burden_mm3,affected_fraction,"
          "densitometry,confounder,field_volume_mm3,objects_dropped,image,labels\n";
 }
 
 std::string truth_csv_row(const SubjectTruth& t, const std::string& image_file, const std::string& labels_file) {
   return std::to_string(t.subject) + "," + std::to_string(t.rescan) + "," + to_string(t.family) + "," + t.pattern + "," +
-         std::to_string(t.count) + "," + std::to_string(t.count_reference_slice) + "," + std::to_string(t.reference_slice) +
+         number(t.target) + "," + std::to_string(t.count) + "," + std::to_string(t.count_reference_slice) + "," + std::to_string(t.reference_slice) +
          "," + number(t.burden_mm3) + "," + number(t.affected_fraction) + "," +
          (t.family == Family::voids ? number(t.densitometry) : std::string("NA")) + "," + number(t.confounder) + "," +
          number(t.field_volume_mm3) + "," + std::to_string(t.objects_dropped) + "," + image_file + "," + labels_file + "\n";

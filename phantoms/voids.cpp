@@ -7,6 +7,7 @@
 #include "phantoms/acquisition.h"
 #include "phantoms/image_ops.h"
 #include "phantoms/noise.h"
+#include "phantoms/user_error.h"
 
 namespace frugal {
 
@@ -17,6 +18,8 @@ using Vec = std::array<double, 3>;
 constexpr float kAirHu = -1000.0F;
 constexpr float kScannerFloorHu = -1024.0F;  // lowest value a CT image stores
 constexpr double kVoidTexture = 0.3;         // share of the parenchymal texture kept inside voids
+// Densitometry-matched subjects must land this close to their target (about a voxel in 64^2).
+constexpr double kDensitometryTolerance = 0.005;
 
 struct Ellipsoid {
   Vec centre{}, semi_axes{};
@@ -115,7 +118,7 @@ int paint_balls(const Anatomy& a, double target, double min_radius_mm, double ma
                 RandomStream& random, InstanceImage& region) {
   const auto wanted = static_cast<std::int64_t>(std::ceil(target * static_cast<double>(a.field_voxels.size())));
   std::int64_t covered = 0;
-  int balls = 0;
+  int balls = 0, painted = 0;  // drawn, and those that added voxels
   const Geometry& g = a.geometry;
   while (covered < wanted && balls < 100000) {
     const std::size_t seed_voxel =
@@ -148,9 +151,10 @@ int paint_balls(const Anatomy& a, double target, double min_radius_mm, double ma
     }
     for (const auto& entry : fresh) region.data()[entry.second] = 1;
     covered += static_cast<std::int64_t>(fresh.size());
+    if (!fresh.empty()) ++painted;
     ++balls;
   }
-  return balls;
+  return painted;
 }
 
 // Marks the `target` share of field voxels with the highest score.
@@ -288,6 +292,13 @@ Subject generate_voids(const ScenarioOptions& scenario, std::uint64_t seed, int 
       (densitometry(trial.signal, trial.field, v.threshold_hu) < target ? low : high) = middle;
     }
     extent = 0.5 * (low + high);
+    RestSubject check;
+    acquire_with(extent, 0, check);
+    const double reached = densitometry(check.signal, check.field, v.threshold_hu);
+    if (std::abs(reached - target) > kDensitometryTolerance)
+      throw UserError("subject " + std::to_string(subject_index) + ": the densitometry target " + std::to_string(target) +
+                      " cannot be reached with the " + to_string(pattern) + " pattern (closest " + std::to_string(reached) +
+                      "); lower voids.target or raise voids.void_hu." + to_string(pattern) + " above the noise");
   }
 
   RestSubject rest;
@@ -298,6 +309,7 @@ Subject generate_voids(const ScenarioOptions& scenario, std::uint64_t seed, int 
   rest.truth.rescan = rescan;
   rest.truth.pattern = to_string(pattern);
   rest.truth.confounder = confounder.value;
+  rest.truth.target = target;
   const int reference_slice = flat ? 0 : (scenario.geometry.reference_slice >= 0 ? scenario.geometry.reference_slice : shape.z / 2);
   result.labels = finish_truth(rest, rest.truth, reference_slice);
   result.truth = rest.truth;

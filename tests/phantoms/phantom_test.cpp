@@ -9,6 +9,7 @@
 
 #include "phantoms/image_views.h"
 #include "phantoms/scenario_yaml.h"
+#include "phantoms/user_error.h"
 #include "phantoms/voids.h"
 
 namespace frugal {
@@ -154,6 +155,27 @@ TEST(Phantom, VoidsExtentModeHitsTheAffectedFraction) {
     const Subject g = generate_subject(s, 8, 0);
     // Every pattern is sized to the requested share of field voxels, exact up to one voxel.
     EXPECT_NEAR(g.truth.affected_fraction, 0.2, 0.001) << to_string(pattern);
+  }
+}
+
+}  // namespace
+}  // namespace frugal
+
+namespace frugal {
+namespace {
+
+// An unreachable densitometry target is a user error naming the subject, never a silent default.
+TEST(Phantom, UnreachableDensitometryTargetIsReported) {
+  ScenarioOptions s = small(Family::voids, 2);
+  s.voids.target = Distribution::fixed_at(0.9);
+  s.voids.target_kind = VoidsTarget::densitometry;
+  s.voids.patterns = {VoidPattern::diffuse_thinning};
+  try {
+    generate_subject(s, 8, 3);
+    FAIL() << "accepted an unreachable target";
+  } catch (const UserError& error) {
+    EXPECT_NE(std::string(error.what()).find("subject 3"), std::string::npos) << error.what();
+    EXPECT_NE(std::string(error.what()).find("diffuse_thinning"), std::string::npos) << error.what();
   }
 }
 
