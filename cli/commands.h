@@ -10,5 +10,7 @@ namespace frugal::cli {
 
 void add_phantoms_command(CLI::App& app);
 void add_agree_command(CLI::App& app);
+void add_labels_command(CLI::App& app);
+void add_calibrate_command(CLI::App& app);
 
 }  // namespace frugal::cli

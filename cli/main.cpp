@@ -17,7 +17,9 @@ int main(int argc, char** argv) {
   app.set_version_flag("--version", std::string("frugal ") + frugal::kVersion);
   app.require_subcommand(1);
   frugal::cli::add_phantoms_command(app);
+  frugal::cli::add_labels_command(app);
   frugal::cli::add_agree_command(app);
+  frugal::cli::add_calibrate_command(app);
   try {
     app.parse(argc, argv);
   } catch (const CLI::ParseError& error) {

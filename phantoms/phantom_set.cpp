@@ -3,27 +3,23 @@
 #include <opencv2/core/version.hpp>
 
 #include <chrono>
-#include <condition_variable>
 #include <cstdio>
-#include <exception>
 #include <filesystem>
 #include <fstream>
-#include <map>
 #include <memory>
-#include <mutex>
-#include <thread>
-#include <vector>
 
 #include <nlohmann/json.hpp>
 #include <yaml-cpp/yaml.h>
 
 #include "frugal_version.h"
 #include "phantoms/nifti_io.h"
+#include "phantoms/ordered_pipeline.h"
 #include "phantoms/phantom.h"
 #include "phantoms/preview.h"
 #include "phantoms/scenario_yaml.h"
 #include "phantoms/truth_tables.h"
 #include "phantoms/user_error.h"
+#include "phantoms/whole_file.h"
 #include "phantoms/yaml_to_json.h"
 
 namespace frugal {
@@ -42,26 +38,6 @@ std::string PhantomSetOptions::validate() const {
 }
 
 namespace {
-
-// A text file written under a temporary name and moved into place when complete.
-class WholeFile {
- public:
-  explicit WholeFile(fs::path path) : path_(std::move(path)), temporary_(path_.string() + ".partial") {
-    stream_.open(temporary_, std::ios::binary | std::ios::trunc);
-    if (!stream_) throw UserError(temporary_.string() + ": cannot open for writing");
-  }
-  void write(const std::string& text) { stream_ << text; }
-  void commit() {
-    stream_.close();
-    if (!stream_) throw UserError(temporary_.string() + ": writing failed (disk full?)");
-    fs::rename(temporary_, path_);
-  }
-
- private:
-  fs::path path_;
-  fs::path temporary_;
-  std::ofstream stream_;
-};
 
 std::string subject_stem(int subject, int rescan) {
   char text[48];
@@ -140,74 +116,28 @@ PhantomSetSummary write_phantom_set(const ScenarioOptions& scenario, const std::
   objects_file.write(csv_version_comment("phantom objects") + objects_csv_header());
   Montage montage(options.preview_tiles);
 
-  std::mutex mutex;
-  std::condition_variable changed;
-  std::map<int, FinishedSubject> ready;
-  int next_task = 0, next_write = 0;
-  std::exception_ptr failure;
-  const int window = 4 * options.threads;  // bounds memory: workers never run further ahead
-
-  const auto work = [&] {
-    while (true) {
-      int n = 0;
-      {
-        std::unique_lock<std::mutex> lock(mutex);
-        changed.wait(lock, [&] { return failure || next_task >= options.count || next_task - next_write < window; });
-        if (failure || next_task >= options.count) return;
-        n = next_task++;
-      }
-      try {
-        FinishedSubject finished;
-        const int subject = options.first + n;
-        for (int rescan = 0; rescan <= options.rescans; ++rescan) {
-          Subject generated = generate_subject(scenario, options.seed, subject, rescan);
-          const std::string stem = subject_stem(subject, rescan);
-          const std::string image_file = "images/" + stem + ".nii.gz", labels_file = "labels/" + stem + ".nii.gz";
-          write_nifti(generated.image, (root / image_file).string());
-          write_nifti(generated.labels, (root / labels_file).string());
-          finished.truth_rows += truth_csv_row(generated.truth, image_file, labels_file);
-          finished.object_rows += objects_csv_rows(generated.truth);
-          if (rescan == 0 && n < options.preview_tiles) finished.preview = std::make_unique<Subject>(std::move(generated));
-        }
-        std::lock_guard<std::mutex> lock(mutex);
-        ready.emplace(n, std::move(finished));
-      } catch (...) {
-        std::lock_guard<std::mutex> lock(mutex);
-        if (!failure) failure = std::current_exception();
-      }
-      changed.notify_all();
+  const auto produce = [&](int n) {
+    FinishedSubject finished;
+    const int subject = options.first + n;
+    for (int rescan = 0; rescan <= options.rescans; ++rescan) {
+      Subject generated = generate_subject(scenario, options.seed, subject, rescan);
+      const std::string stem = subject_stem(subject, rescan);
+      const std::string image_file = "images/" + stem + ".nii.gz", labels_file = "labels/" + stem + ".nii.gz";
+      write_nifti(generated.image, (root / image_file).string());
+      write_nifti(generated.labels, (root / labels_file).string());
+      finished.truth_rows += truth_csv_row(generated.truth, image_file, labels_file);
+      finished.object_rows += objects_csv_rows(generated.truth);
+      if (rescan == 0 && n < options.preview_tiles) finished.preview = std::make_unique<Subject>(std::move(generated));
     }
+    return finished;
   };
-
-  std::vector<std::thread> workers;
-  for (int t = 0; t < options.threads; ++t) workers.emplace_back(work);
-  try {
-    while (next_write < options.count) {
-      FinishedSubject finished;
-      {
-        std::unique_lock<std::mutex> lock(mutex);
-        changed.wait(lock, [&] { return failure || ready.count(next_write) != 0; });
-        if (failure) break;
-        finished = std::move(ready.at(next_write));
-        ready.erase(next_write);
-      }
-      truth_file.write(finished.truth_rows);
-      objects_file.write(finished.object_rows);
-      if (finished.preview) montage.add(*finished.preview);
-      {
-        std::lock_guard<std::mutex> lock(mutex);
-        ++next_write;
-      }
-      changed.notify_all();
-      if (progress) progress(next_write);
-    }
-  } catch (...) {
-    std::lock_guard<std::mutex> lock(mutex);
-    if (!failure) failure = std::current_exception();
-  }
-  changed.notify_all();
-  for (std::thread& worker : workers) worker.join();
-  if (failure) std::rethrow_exception(failure);
+  const auto consume = [&](int n, FinishedSubject&& finished) {
+    truth_file.write(finished.truth_rows);
+    objects_file.write(finished.object_rows);
+    if (finished.preview) montage.add(*finished.preview);
+    if (progress) progress(n + 1);
+  };
+  run_ordered<FinishedSubject>(options.count, options.threads, produce, consume);
 
   truth_file.commit();
   objects_file.commit();

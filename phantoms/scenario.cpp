@@ -117,10 +117,12 @@ std::string validate_confounder(const ScenarioOptions& o) {
              " HU) below voids.threshold_hu or above 0 HU within 3 SD; use a smaller spread";
     return {};
   }
-  const double limit = c.factor == ConfounderFactor::field_size ? 0.1 : 0.3;
+  const bool size = c.factor == ConfounderFactor::field_size;
+  const double limit = size ? 0.1 : 0.3;
   if (!(c.spread >= 0.0 && c.spread <= limit))
-    return "confounder.spread is " + number(c.spread) + "; allowed 0.." + number(limit) + " for " + to_string(c.factor) +
-           " (a relative SD; field sizes are bounded to 0.7..1.3)";
+    return "confounder.spread is " + number(c.spread) + "; allowed 0.." + number(limit) +
+           (size ? " for field_size (a relative SD; size factors are bounded to 0.7..1.3)"
+                 : " (a relative SD of the intensity gain)");
   return {};
 }
 

@@ -157,17 +157,6 @@ void read_voids(YamlFields& fields, VoidsOptions& v) {
   fields.finish();
 }
 
-// Line of the key path that starts a validate() message ("streaks.count.mean is ..."), or 0.
-int line_of_key_path(const YAML::Node& node, const std::string& path) {
-  const auto dot = path.find('.');
-  const std::string key = path.substr(0, dot);
-  if (!node.IsMap() || !node[key]) return 0;
-  const YAML::Node value = node[key];
-  if (dot == std::string::npos) return value.Mark().line + 1;
-  const int deeper = line_of_key_path(value, path.substr(dot + 1));
-  return deeper > 0 ? deeper : value.Mark().line + 1;
-}
-
 }  // namespace
 
 ScenarioOptions read_scenario(const YAML::Node& root, const std::string& file) {

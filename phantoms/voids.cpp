@@ -2,6 +2,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <cstdio>
 #include <vector>
 
 #include "phantoms/acquisition.h"
@@ -295,10 +296,19 @@ Subject generate_voids(const ScenarioOptions& scenario, std::uint64_t seed, int 
     RestSubject check;
     acquire_with(extent, 0, check);
     const double reached = densitometry(check.signal, check.field, v.threshold_hu);
-    if (std::abs(reached - target) > kDensitometryTolerance)
-      throw UserError("subject " + std::to_string(subject_index) + ": the densitometry target " + std::to_string(target) +
-                      " cannot be reached with the " + to_string(pattern) + " pattern (closest " + std::to_string(reached) +
-                      "); lower voids.target or raise voids.void_hu." + to_string(pattern) + " above the noise");
+    if (std::abs(reached - target) > kDensitometryTolerance) {
+      RestSubject none, most;
+      acquire_with(0.0, 0, none);
+      acquire_with(0.95, 0, most);
+      char message[512];
+      std::snprintf(message, sizeof(message),
+                    "subject %d: the densitometry target %g cannot be reached with the %s pattern: this subject "
+                    "reaches %g (no region) to %g (95%% of the field); keep voids.target within that range, or make "
+                    "voids.void_hu.%s darker to reach higher values",
+                    subject_index, target, to_string(pattern).c_str(), densitometry(none.signal, none.field, v.threshold_hu),
+                    densitometry(most.signal, most.field, v.threshold_hu), to_string(pattern).c_str());
+      throw UserError(message);
+    }
   }
 
   RestSubject rest;

@@ -91,6 +91,21 @@ void YamlFields::read(const std::string& key, std::vector<std::string>& value) {
   }
 }
 
+void YamlFields::read(const std::string& key, std::vector<double>& value) {
+  if (!has(key)) return;
+  const YAML::Node& list = value_node(key);
+  if (!list.IsSequence()) fail(key, "must be a list of numbers");
+  value.clear();
+  for (std::size_t i = 0; i < list.size(); ++i) {
+    if (!list[i].IsScalar()) fail(key, "entry " + std::to_string(i + 1) + " is not a number");
+    try {
+      value.push_back(list[i].as<double>());
+    } catch (const YAML::Exception&) {
+      fail(key, "entry " + std::to_string(i + 1) + " is not a number");
+    }
+  }
+}
+
 void YamlFields::finish() {
   for (const auto& key : known_keys_) {
     if (read_keys_.count(key) != 0) continue;
@@ -98,6 +113,16 @@ void YamlFields::finish() {
     for (const auto& known : allowed_keys_) allowed += (allowed.empty() ? "" : ", ") + known;
     throw UserError(where(key) + " is not a key frugal knows here; allowed: " + allowed);
   }
+}
+
+int line_of_key_path(const YAML::Node& node, const std::string& path) {
+  const auto dot = path.find('.');
+  const std::string key = path.substr(0, dot);
+  if (!node.IsMap() || !node[key]) return 0;
+  const YAML::Node value = node[key];
+  if (dot == std::string::npos) return value.Mark().line + 1;
+  const int deeper = line_of_key_path(value, path.substr(dot + 1));
+  return deeper > 0 ? deeper : value.Mark().line + 1;
 }
 
 YAML::Node load_yaml_file(const std::string& file) {

@@ -32,6 +32,7 @@ class YamlFields {
   template <std::size_t N>
   void read(const std::string& key, std::array<int, N>& value);
   void read(const std::string& key, std::vector<std::string>& value);
+  void read(const std::string& key, std::vector<double>& value);
   // A string that must be one of `choices` (name -> value).
   template <class Enum>
   void read_choice(const std::string& key, const std::map<std::string, Enum>& choices, Enum& value);
@@ -61,6 +62,11 @@ class YamlFields {
 
 // Loads a YAML file whose top level must be a mapping; syntax errors name the file and line.
 YAML::Node load_yaml_file(const std::string& file);
+
+// 1-based line of a dotted key path ("streaks.count.mean") in `node`, so that validate()
+// messages, which start with the key path, can name a line. When the last keys are absent (the
+// value is a default), the line of the deepest enclosing key the file does have; 0 when none.
+int line_of_key_path(const YAML::Node& node, const std::string& path);
 
 template <std::size_t N>
 void YamlFields::read(const std::string& key, std::array<double, N>& value) {

@@ -1,0 +1,69 @@
+#include "experiments/calibration/calibration.h"
+
+#include <gtest/gtest.h>
+
+#include "phantoms/user_error.h"
+
+namespace frugal {
+namespace {
+
+ScenarioOptions pilot_scenario(Family family) {
+  ScenarioOptions s = default_scenario(family);
+  s.geometry.size_2d = {64, 64};
+  // Poisson counts: the F-based ICC interval assumes roughly normal ratings, which heavy-tailed
+  // (negative binomial) counts are not.
+  if (family == Family::streaks) s.streaks.count = {CountDistribution::Kind::poisson, 6.0};
+  return s;
+}
+
+struct Case {
+  const char* name;
+  Family family;
+  CalibrationStatistic statistic;
+  double target;
+};
+
+class Calibration : public ::testing::TestWithParam<Case> {};
+
+// The calibrated rater reproduces the requested agreement: on the calibration pilot to the search
+// tolerance, and on an independent pilot (another seed) within that pilot's 95% interval
+// (the interval of the statistic: kappa's large-sample SE, ICC's F-based interval, Dice's mean).
+TEST_P(Calibration, ReproducesTheRequestedAgreement) {
+  const Case c = GetParam();
+  const ScenarioOptions scenario = pilot_scenario(c.family);
+  CalibrationOptions options;
+  options.statistic = c.statistic;
+  options.target = c.target;
+  options.subjects = 300;
+  options.seed = 5;
+  const CalibrationResult result = calibrate(scenario, RaterOptions{}, options);
+  EXPECT_NEAR(result.achieved, c.target, options.tolerance) << result.parameter << " = " << result.value << " (seed 5)";
+  EXPECT_LE(result.lower, c.target);
+  EXPECT_GE(result.upper, c.target);
+  const Agreement fresh = simulated_agreement(scenario, result.rater, c.statistic, 300, 6);
+  EXPECT_LE(fresh.lower, c.target) << "independent pilot, seed 6: " << fresh.value;
+  EXPECT_GE(fresh.upper, c.target) << "independent pilot, seed 6: " << fresh.value;
+}
+
+INSTANTIATE_TEST_SUITE_P(
+    Statistics, Calibration,
+    ::testing::Values(Case{"grade_kappa", Family::voids, CalibrationStatistic::grade_kappa, 0.55},
+                      Case{"count_icc", Family::streaks, CalibrationStatistic::count_icc, 0.7},
+                      Case{"outline_dice", Family::streaks, CalibrationStatistic::outline_dice, 0.6}),
+    [](const ::testing::TestParamInfo<Case>& param_info) { return std::string(param_info.param.name); });
+
+TEST(Calibration, UnreachableTargetIsAUserError) {
+  CalibrationOptions options;
+  options.statistic = CalibrationStatistic::grade_kappa;
+  options.target = 0.999;
+  options.subjects = 60;
+  RaterOptions rater;
+  rater.grading.bias = 1.5;  // a biased pair can never agree perfectly with quadratic weights
+  rater.panel.bias_sd = 1.0;
+  EXPECT_THROW(calibrate(pilot_scenario(Family::voids), rater, options), UserError);
+  options.target = 1.5;
+  EXPECT_THROW(calibrate(pilot_scenario(Family::voids), rater, options), UserError);
+}
+
+}  // namespace
+}  // namespace frugal
