@@ -68,9 +68,13 @@ std::vector<double> squared_distance_mm2(const std::vector<std::uint8_t>& featur
       for (std::size_t i = 0; i < n; ++i) distance[first + i * stride] = std::min(result[i], kNoFeatureDistance2);
     }
   };
-  pass(nx, 1, ny * nz, [&](std::size_t l) { return l * nx; }, spacing_mm[0]);
-  pass(ny, nx, nx * nz, [&](std::size_t l) { return (l / nx) * nx * ny + l % nx; }, spacing_mm[1]);
-  if (shape.z > 1) pass(nz, nx * ny, nx * ny, [&](std::size_t l) { return l; }, spacing_mm[2]);
+  pass(
+      nx, 1, ny * nz, [&](std::size_t l) { return l * nx; }, spacing_mm[0]);
+  pass(
+      ny, nx, nx * nz, [&](std::size_t l) { return (l / nx) * nx * ny + l % nx; }, spacing_mm[1]);
+  if (shape.z > 1)
+    pass(
+        nz, nx * ny, nx * ny, [&](std::size_t l) { return l; }, spacing_mm[2]);
   return distance;
 }
 

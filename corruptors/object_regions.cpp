@@ -11,9 +11,12 @@ namespace {
 
 std::uint8_t label_code(ObjectKind kind) {
   switch (kind) {
-    case ObjectKind::lesion: return kLesion;
-    case ObjectKind::dot_distractor: return kDotDistractor;
-    case ObjectKind::line_distractor: return kLineDistractor;
+    case ObjectKind::lesion:
+      return kLesion;
+    case ObjectKind::dot_distractor:
+      return kDotDistractor;
+    case ObjectKind::line_distractor:
+      return kLineDistractor;
   }
   return kLesion;
 }
@@ -25,7 +28,9 @@ std::size_t voxel_near(const LabelImage& labels, const Geometry& geometry, const
   const Shape& shape = labels.shape();
   const int cx = static_cast<int>(std::lround(centre[0])), cy = static_cast<int>(std::lround(centre[1]));
   const int cz = shape.z == 1 ? 0 : static_cast<int>(std::lround(centre[2]));
-  const auto inside = [&](int x, int y, int z) { return x >= 0 && y >= 0 && z >= 0 && x < shape.x && y < shape.y && z < shape.z; };
+  const auto inside = [&](int x, int y, int z) {
+    return x >= 0 && y >= 0 && z >= 0 && x < shape.x && y < shape.y && z < shape.z;
+  };
   if (inside(cx, cy, cz) && labels.at(cx, cy, cz) == code) return labels.index(cx, cy, cz);
   std::size_t best = std::numeric_limits<std::size_t>::max();
   double best_distance = std::numeric_limits<double>::infinity();
@@ -50,7 +55,8 @@ std::size_t voxel_near(const LabelImage& labels, const Geometry& geometry, const
 
 // Breadth-first growth of the component of `code` at `start`; marks its voxels in `seen` (which
 // must not mark any of them yet) and leaves them marked.
-ObjectRegion grow_component(const LabelImage& labels, std::size_t start, std::uint8_t code, std::vector<std::uint8_t>& seen) {
+ObjectRegion grow_component(const LabelImage& labels, std::size_t start, std::uint8_t code,
+                            std::vector<std::uint8_t>& seen) {
   FRUGAL_CHECK(start < labels.size() && labels.data()[start] == code && seen.size() == labels.size());
   const Shape& shape = labels.shape();
   const auto nx = static_cast<std::size_t>(shape.x), ny = static_cast<std::size_t>(shape.y);

@@ -1,10 +1,9 @@
 #include "corruptors/outline.h"
 
-#include <opencv2/imgproc.hpp>
-
 #include <algorithm>
 #include <cmath>
 #include <cstddef>
+#include <opencv2/imgproc.hpp>
 #include <utility>
 #include <vector>
 
@@ -65,15 +64,16 @@ std::array<FloatImage, 3> displacement_field(const Geometry& geometry, const Out
   const std::size_t axes = flat ? 2 : 3;
   const double scale = options.displacement_scale_mm;
   double largest_spacing = 0.0;
-  for (std::size_t axis = 0; axis < axes; ++axis) largest_spacing = std::max(largest_spacing, geometry.spacing_mm[axis]);
+  for (std::size_t axis = 0; axis < axes; ++axis)
+    largest_spacing = std::max(largest_spacing, geometry.spacing_mm[axis]);
   const int step = std::max(1, static_cast<int>(std::floor(scale / (2.0 * largest_spacing))));
   Geometry coarse = geometry;
   coarse.shape = coarse_extent(geometry.shape, step);
   for (std::size_t axis = 0; axis < axes; ++axis) coarse.spacing_mm[axis] *= step;
   const std::array<double, 3> sigma{scale, scale, flat ? 0.0 : scale};
 
-  // Variance factor of the interpolation at every fine position along each axis.
-  std::array<std::vector<double>, 3> variance;
+  // 1 / sqrt(variance factor of the interpolation) at every fine position along each axis.
+  std::array<std::vector<float>, 3> correction;
   const int fine_extent[3] = {geometry.shape.x, geometry.shape.y, geometry.shape.z};
   const int coarse_extent_of[3] = {coarse.shape.x, coarse.shape.y, coarse.shape.z};
   for (std::size_t axis = 0; axis < 3; ++axis) {
@@ -83,7 +83,8 @@ std::array<FloatImage, 3> displacement_field(const Geometry& geometry, const Out
       // The same cell and weight as upsample() uses.
       const int lower = std::min(i / step, std::max(coarse_extent_of[axis] - 2, 0));
       const double u = coarse_extent_of[axis] > 1 ? static_cast<double>(i - lower * step) / step : 0.0;
-      variance[axis].push_back((1.0 - u) * (1.0 - u) + u * u + 2.0 * u * (1.0 - u) * rho);
+      const double variance = (1.0 - u) * (1.0 - u) + u * u + 2.0 * u * (1.0 - u) * rho;
+      correction[axis].push_back(static_cast<float>(1.0 / std::sqrt(variance)));
     }
   }
 
@@ -99,9 +100,10 @@ std::array<FloatImage, 3> displacement_field(const Geometry& geometry, const Out
     for (int z = 0; z < geometry.shape.z; ++z)
       for (int y = 0; y < geometry.shape.y; ++y) {
         float* row = component.data() + component.index(0, y, z);
-        const double yz = variance[1][static_cast<std::size_t>(y)] * variance[2][static_cast<std::size_t>(z)];
-        for (int x = 0; x < geometry.shape.x; ++x)
-          row[x] = static_cast<float>(row[x] * node_scale / std::sqrt(variance[0][static_cast<std::size_t>(x)] * yz));
+        const auto yz = static_cast<float>(node_scale * correction[1][static_cast<std::size_t>(y)] *
+                                           correction[2][static_cast<std::size_t>(z)]);
+        const float* along_x = correction[0].data();
+        for (int x = 0; x < geometry.shape.x; ++x) row[x] *= yz * along_x[x];
       }
   }
   return field;
@@ -150,7 +152,7 @@ std::vector<float> upsample_mask(const std::vector<std::uint8_t>& mask, const Sh
 // sub-voxel positions, as many voxels as the mask holds (the level is solved for below), and at
 // level + b the boundary moves out by b mm.
 struct SignedDistance {
-  Shape shape;                      // fine grid
+  Shape shape;  // fine grid
   std::array<double, 3> spacing_mm{};
   std::vector<float> distance_mm;  // x fastest
   double level = 0.0;
@@ -170,7 +172,8 @@ SignedDistance signed_distance(const std::vector<std::uint8_t>& mask, const Shap
   }
   const std::vector<double> to_inside = squared_distance_mm2(inside, result.shape, result.spacing_mm);
   const std::vector<double> to_outside = squared_distance_mm2(outside, result.shape, result.spacing_mm);
-  const double step = std::min({result.spacing_mm[0], result.spacing_mm[1], flat ? result.spacing_mm[0] : result.spacing_mm[2]});
+  const double step =
+      std::min({result.spacing_mm[0], result.spacing_mm[1], flat ? result.spacing_mm[0] : result.spacing_mm[2]});
   result.distance_mm.resize(smooth.size());
   for (std::size_t i = 0; i < smooth.size(); ++i)
     result.distance_mm[i] = static_cast<float>(inside[i] != 0 ? -(std::sqrt(to_outside[i]) - 0.5 * step)
@@ -182,19 +185,24 @@ SignedDistance signed_distance(const std::vector<std::uint8_t>& mask, const Shap
   // `band` of the boundary can change their share.
   std::size_t marked = 0;
   for (std::uint8_t m : mask) marked += m;
-  const double target = static_cast<double>(marked) * static_cast<double>(smooth.size()) / static_cast<double>(mask.size());
+  const double target =
+      static_cast<double>(marked) * static_cast<double>(smooth.size()) / static_cast<double>(mask.size());
   const double band = 2.0 * std::max({spacing_mm[0], spacing_mm[1], flat ? spacing_mm[0] : spacing_mm[2]});
   double fixed = 0.0;
   std::vector<float> near;
   for (float d : result.distance_mm) {
-    if (d < -band) fixed += 1.0;
-    else if (d <= band) near.push_back(d);
+    if (d < -band)
+      fixed += 1.0;
+    else if (d <= band)
+      near.push_back(d);
   }
+  // 30 halvings of the bracket leave it a few nanometres wide.
   double low = -band + step, high = band - step;
-  for (int iteration = 0; iteration < 50; ++iteration) {
+  const double per_step = 1.0 / step;
+  for (int iteration = 0; iteration < 30; ++iteration) {
     const double c = 0.5 * (low + high);
     double area = fixed;
-    for (float d : near) area += std::clamp(0.5 + (c - d) / step, 0.0, 1.0);
+    for (float d : near) area += std::clamp(0.5 + (c - d) * per_step, 0.0, 1.0);
     (area < target ? low : high) = c;
   }
   result.level = 0.5 * (low + high);
@@ -216,9 +224,10 @@ float sample_linear(const SignedDistance& grid, double x, double y, double z) {
   corner(y, s.y, y0, y1, wy);
   corner(z, s.z, z0, z1, wz);
   const auto at = [&](int i, int j, int k) {
-    return static_cast<double>(grid.distance_mm[(static_cast<std::size_t>(k) * static_cast<std::size_t>(s.y) +
-                                                 static_cast<std::size_t>(j)) * static_cast<std::size_t>(s.x) +
-                                                static_cast<std::size_t>(i)]);
+    return static_cast<double>(
+        grid.distance_mm[(static_cast<std::size_t>(k) * static_cast<std::size_t>(s.y) + static_cast<std::size_t>(j)) *
+                             static_cast<std::size_t>(s.x) +
+                         static_cast<std::size_t>(i)]);
   };
   const double c00 = at(x0, y0, z0) + wx * (at(x1, y0, z0) - at(x0, y0, z0));
   const double c10 = at(x0, y1, z0) + wx * (at(x1, y1, z0) - at(x0, y1, z0));
@@ -241,8 +250,9 @@ std::vector<std::uint8_t> deform(const std::vector<std::uint8_t>& mask, const Bo
   const double centre = 0.5 * (kFine - 1);  // fine coordinate of voxel coordinate 0
   std::vector<std::uint8_t> out(mask.size(), 0);
   const auto displacement = [&](std::size_t axis, int x, int y, int z) {
-    return field[axis].empty() ? 0.0
-                               : field[axis].at(box.low[0] + x, box.low[1] + y, box.low[2] + z) / geometry.spacing_mm[axis];
+    return field[axis].empty()
+               ? 0.0
+               : field[axis].at(box.low[0] + x, box.low[1] + y, box.low[2] + z) / geometry.spacing_mm[axis];
   };
   if (flat) {
     // cv::remap reads the fine signed distance at the displaced positions (bilinear).
@@ -316,12 +326,13 @@ std::vector<Voxel> attachment_voxels(const std::vector<std::uint8_t>& mask, cons
 // Poisson number per lesion with the configured mean.
 void add_protrusions_and_holes(std::vector<std::uint8_t>& mask, const Box& box, const OutlineOptions& options,
                                const std::array<double, 3>& spacing_mm, RandomStream& random) {
-  const auto place = [&](double rate, bool inside, const double (&radius_mm)[2], std::uint8_t value) {
+  const auto place = [&](double rate, bool inside, const double(&radius_mm)[2], std::uint8_t value) {
     const std::int64_t count = rate > 0.0 ? random.poisson(rate) : 0;
     for (std::int64_t n = 0; n < count; ++n) {
       const std::vector<Voxel> candidates = attachment_voxels(mask, box, inside);
       if (candidates.empty()) return;
-      const Voxel at = candidates[static_cast<std::size_t>(random.uniform_int(0, static_cast<std::int64_t>(candidates.size()) - 1))];
+      const Voxel at =
+          candidates[static_cast<std::size_t>(random.uniform_int(0, static_cast<std::int64_t>(candidates.size()) - 1))];
       stamp_ball(mask, box, at, random.uniform(radius_mm[0], radius_mm[1]), spacing_mm, value);
     }
   };
@@ -336,7 +347,7 @@ int add_spurious_blobs(LabelImage& outline, const LabelImage& labels, double rat
   const std::int64_t count = rate > 0.0 ? random.poisson(rate) : 0;
   const Geometry& geometry = labels.geometry();
   const Shape& shape = geometry.shape;
-  const Box whole{{0, 0, 0}, {shape.x - 1, shape.y - 1, shape.z - 1}};
+  const int extent[3] = {shape.x, shape.y, shape.z};
   int placed = 0;
   for (std::int64_t n = 0; n < count; ++n) {
     const double radius = random.uniform(kSpuriousRadiusMm[0], kSpuriousRadiusMm[1]);
@@ -348,10 +359,11 @@ int add_spurious_blobs(LabelImage& outline, const LabelImage& labels, double rat
       bool free = true;
       Voxel reach{};
       for (std::size_t axis = 0; axis < 3; ++axis)
-        reach[axis] = whole.size(axis) == 1 ? 0 : static_cast<int>(std::ceil(clear / geometry.spacing_mm[axis]));
+        reach[axis] = extent[axis] == 1 ? 0 : static_cast<int>(std::ceil(clear / geometry.spacing_mm[axis]));
       for (int z = std::max(0, centre[2] - reach[2]); free && z <= std::min(shape.z - 1, centre[2] + reach[2]); ++z)
         for (int y = std::max(0, centre[1] - reach[1]); free && y <= std::min(shape.y - 1, centre[1] + reach[1]); ++y)
-          for (int x = std::max(0, centre[0] - reach[0]); free && x <= std::min(shape.x - 1, centre[0] + reach[0]); ++x) {
+          for (int x = std::max(0, centre[0] - reach[0]); free && x <= std::min(shape.x - 1, centre[0] + reach[0]);
+               ++x) {
             const double dx = (x - centre[0]) * geometry.spacing_mm[0], dy = (y - centre[1]) * geometry.spacing_mm[1],
                          dz = (z - centre[2]) * geometry.spacing_mm[2];
             if (dx * dx + dy * dy + dz * dz > clear * clear) continue;
@@ -359,10 +371,13 @@ int add_spurious_blobs(LabelImage& outline, const LabelImage& labels, double rat
           }
       if (!free) continue;
       // The blob is clipped to the field: raters draw on what they take for tissue.
-      std::vector<std::uint8_t> ball(whole.count(), 0);
-      stamp_ball(ball, whole, centre, radius, geometry.spacing_mm, 1);
-      for (std::size_t i = 0; i < ball.size(); ++i)
-        if (ball[i] != 0 && labels.data()[i] >= kField) outline.data()[i] = 1;
+      for (int z = std::max(0, centre[2] - reach[2]); z <= std::min(shape.z - 1, centre[2] + reach[2]); ++z)
+        for (int y = std::max(0, centre[1] - reach[1]); y <= std::min(shape.y - 1, centre[1] + reach[1]); ++y)
+          for (int x = std::max(0, centre[0] - reach[0]); x <= std::min(shape.x - 1, centre[0] + reach[0]); ++x) {
+            const double dx = (x - centre[0]) * geometry.spacing_mm[0], dy = (y - centre[1]) * geometry.spacing_mm[1],
+                         dz = (z - centre[2]) * geometry.spacing_mm[2];
+            if (dx * dx + dy * dy + dz * dz <= radius * radius && labels.at(x, y, z) >= kField) outline.at(x, y, z) = 1;
+          }
       ++placed;
       break;
     }
@@ -371,8 +386,10 @@ int add_spurious_blobs(LabelImage& outline, const LabelImage& labels, double rat
 }
 
 // Outlined boundary length in mm, as the rater's pen travels it: per slice, the length of every
-// contour OpenCV traces through the boundary voxel centres (outer borders and holes), so a lone
-// voxel counts 0 and a disc of radius r about 2 pi (r - half a voxel); a 3D mask sums its slices.
+// contour OpenCV traces through the boundary voxel centres (outer borders and holes; the 8-chain's
+// diagonal steps make up for running half a voxel inside, so a disc of radius 5-20 voxels measures
+// within 4% of 2 pi r), with the in-plane spacing applied. A lone voxel counts 0. A 3D mask sums
+// its slices (raters outline volumes slice by slice).
 double boundary_length_mm(const LabelImage& mask) {
   const Geometry& geometry = mask.geometry();
   double length = 0.0;
@@ -383,7 +400,8 @@ double boundary_length_mm(const LabelImage& mask) {
       std::vector<cv::Point2f> mm;
       mm.reserve(contour.size());
       for (const cv::Point& p : contour)
-        mm.emplace_back(static_cast<float>(p.x * geometry.spacing_mm[0]), static_cast<float>(p.y * geometry.spacing_mm[1]));
+        mm.emplace_back(static_cast<float>(p.x * geometry.spacing_mm[0]),
+                        static_cast<float>(p.y * geometry.spacing_mm[1]));
       length += cv::arcLength(mm, true);
     }
   }
@@ -406,7 +424,9 @@ Label make_outline(const Subject& subject, const RaterOptions& rater, RandomStre
 
   std::vector<ObjectRegion> regions = object_regions(subject);
   regions.erase(std::remove_if(regions.begin(), regions.end(),
-                               [&](const ObjectRegion& r) { return r.object >= 0 && !noticed[static_cast<std::size_t>(r.object)]; }),
+                               [&](const ObjectRegion& r) {
+                                 return r.object >= 0 && !noticed[static_cast<std::size_t>(r.object)];
+                               }),
                 regions.end());
 
   Label label;
@@ -423,7 +443,8 @@ Label make_outline(const Subject& subject, const RaterOptions& rater, RandomStre
     Box box;
     for (std::size_t axis = 0; axis < 3; ++axis) {
       const int extent = axis == 0 ? geometry.shape.x : axis == 1 ? geometry.shape.y : geometry.shape.z;
-      const int margin = (flat && axis == 2) ? 0 : static_cast<int>(std::ceil(reach_mm / geometry.spacing_mm[axis])) + 1;
+      const int margin =
+          (flat && axis == 2) ? 0 : static_cast<int>(std::ceil(reach_mm / geometry.spacing_mm[axis])) + 1;
       box.low[axis] = std::max(0, low[axis] - margin);
       box.high[axis] = std::min(extent - 1, high[axis] + margin);
     }

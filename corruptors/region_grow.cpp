@@ -1,11 +1,10 @@
 #include "corruptors/region_grow.h"
 
-#include <opencv2/imgproc.hpp>
-
 #include <algorithm>
 #include <cmath>
 #include <cstddef>
 #include <limits>
+#include <opencv2/imgproc.hpp>
 #include <string>
 
 #include "corruptors/detection.h"
@@ -105,8 +104,8 @@ std::array<double, 3> as_double(const std::array<int, 3>& voxel) {
 Seed choose_seed(const Subject& subject, const ObjectRegion& region) {
   const Geometry& geometry = subject.image.geometry();
   const Shape& shape = geometry.shape;
-  const double one_voxel_mm = std::max({geometry.spacing_mm[0], geometry.spacing_mm[1],
-                                        shape.z > 1 ? geometry.spacing_mm[2] : 0.0});
+  const double one_voxel_mm =
+      std::max({geometry.spacing_mm[0], geometry.spacing_mm[1], shape.z > 1 ? geometry.spacing_mm[2] : 0.0});
   Seed seed;
   if (region.object >= 0) {
     const ObjectRecord& object = subject.truth.objects[static_cast<std::size_t>(region.object)];
@@ -223,7 +222,8 @@ Label make_partial_mask(const Subject& subject, const RaterOptions& rater, Rando
   for (std::size_t c = 0; c < used; ++c) {
     const Seed seed = choose_seed(subject, regions[candidates[c].second]);
     const double seed_value = subject.image.at(seed.voxel[0], seed.voxel[1], seed.voxel[2]);
-    const LabelImage grown = flood_region(subject.image, seed.voxel, options.tolerance * std::abs(seed_value), connectivity);
+    const LabelImage grown =
+        flood_region(subject.image, seed.voxel, options.tolerance * std::abs(seed_value), connectivity);
     std::size_t voxels = 0;
     for (std::uint8_t v : grown.voxels()) voxels += v;
     // A region above max_region_mm3 leaked into the background: the tool keeps only what lies
@@ -231,8 +231,8 @@ Label make_partial_mask(const Subject& subject, const RaterOptions& rater, Rando
     const bool leaked = static_cast<double>(voxels) * geometry.voxel_volume_mm3() > options.max_region_mm3;
     for (std::size_t i = 0; i < grown.size(); ++i) {
       if (grown.data()[i] == 0) continue;
-      if (leaked && distance_mm(geometry, as_double(voxel_of(geometry.shape, i)), as_double(seed.voxel)) >
-                        seed.ball_radius_mm)
+      if (leaked &&
+          distance_mm(geometry, as_double(voxel_of(geometry.shape, i)), as_double(seed.voxel)) > seed.ball_radius_mm)
         continue;
       label.mask.data()[i] = kMarkedLesion;
     }

@@ -2,11 +2,10 @@
 
 #include <gtest/gtest.h>
 
-#include <opencv2/imgproc.hpp>
-
 #include <cmath>
 #include <cstdlib>
 #include <fstream>
+#include <opencv2/imgproc.hpp>
 #include <string>
 
 #include "phantoms/image_ops.h"

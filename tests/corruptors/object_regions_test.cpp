@@ -2,9 +2,8 @@
 
 #include <gtest/gtest.h>
 
-#include <opencv2/imgproc.hpp>
-
 #include <cmath>
+#include <opencv2/imgproc.hpp>
 
 #include "phantoms/image_views.h"
 #include "phantoms/phantom.h"

@@ -2,12 +2,11 @@
 
 #include <gtest/gtest.h>
 
-#include <opencv2/imgproc.hpp>
-
 #include <cmath>
 #include <cstdio>
 #include <cstdlib>
 #include <fstream>
+#include <opencv2/imgproc.hpp>
 #include <string>
 #include <vector>
 
@@ -42,17 +41,18 @@ std::vector<LabelImage> skimage_flood(const FloatImage& image, const std::vector
   const std::string image_path = temp_path(name + ".nii.gz");
   write_nifti(image, image_path);
   const std::string script_path = temp_path(name + "_flood.py");
-  std::ofstream(script_path) << "import sys, numpy as np, nibabel as nib\n"
-                                "from skimage.segmentation import flood\n"
-                                "image = np.asarray(nib.load(sys.argv[1]).dataobj)\n"
-                                "assert image.dtype == np.float32, image.dtype\n"
-                                "if image.ndim == 3 and image.shape[2] == 1: image = image[:, :, 0]\n"
-                                "for case in sys.argv[2:]:\n"
-                                "    x, y, z, tol, conn, out = case.split(',')\n"
-                                "    seed = (int(x), int(y)) if image.ndim == 2 else (int(x), int(y), int(z))\n"
-                                "    m = flood(image, seed, tolerance=float(tol), connectivity=int(conn)).astype(np.uint8)\n"
-                                "    if m.ndim == 2: m = m[:, :, None]\n"
-                                "    nib.save(nib.Nifti1Image(m, np.eye(4)), out)\n";
+  std::ofstream(script_path)
+      << "import sys, numpy as np, nibabel as nib\n"
+         "from skimage.segmentation import flood\n"
+         "image = np.asarray(nib.load(sys.argv[1]).dataobj)\n"
+         "assert image.dtype == np.float32, image.dtype\n"
+         "if image.ndim == 3 and image.shape[2] == 1: image = image[:, :, 0]\n"
+         "for case in sys.argv[2:]:\n"
+         "    x, y, z, tol, conn, out = case.split(',')\n"
+         "    seed = (int(x), int(y)) if image.ndim == 2 else (int(x), int(y), int(z))\n"
+         "    m = flood(image, seed, tolerance=float(tol), connectivity=int(conn)).astype(np.uint8)\n"
+         "    if m.ndim == 2: m = m[:, :, None]\n"
+         "    nib.save(nib.Nifti1Image(m, np.eye(4)), out)\n";
   std::string command = std::string(FRUGAL_PYTHON) + " " + script_path + " " + image_path;
   std::vector<std::string> outputs;
   for (std::size_t c = 0; c < cases.size(); ++c) {
@@ -121,11 +121,12 @@ RaterOptions sees_every_lesion() {
 
 TEST(FloodRegion, TwoDimensionalAgreesWithOpenCvAndSkimageOnFixedImages) {
   const FloatImage fixed = fixed_image();
-  const std::vector<FloodCase> fixed_cases = {{{0, 0, 0}, 1.0, 4}, {{0, 0, 0}, 1.0, 8}, {{5, 1, 0}, 0.0, 8},
-                                              {{4, 5, 0}, 0.5, 4}, {{4, 5, 0}, 4.0, 4}};
+  const std::vector<FloodCase> fixed_cases = {
+      {{0, 0, 0}, 1.0, 4}, {{0, 0, 0}, 1.0, 8}, {{5, 1, 0}, 0.0, 8}, {{4, 5, 0}, 0.5, 4}, {{4, 5, 0}, 4.0, 4}};
   const std::vector<LabelImage> skimage = skimage_flood(fixed, fixed_cases, "fixed2d");
   for (std::size_t c = 0; c < fixed_cases.size(); ++c) {
-    const LabelImage ours = flood_region(fixed, fixed_cases[c].seed, fixed_cases[c].tolerance, fixed_cases[c].connectivity);
+    const LabelImage ours =
+        flood_region(fixed, fixed_cases[c].seed, fixed_cases[c].tolerance, fixed_cases[c].connectivity);
     EXPECT_EQ(ours.voxels(), opencv_flood(fixed, fixed_cases[c]).voxels()) << "case " << c;
     ASSERT_EQ(skimage[c].shape(), ours.shape());
     EXPECT_EQ(ours.voxels(), skimage[c].voxels()) << "case " << c;
@@ -140,16 +141,17 @@ TEST(FloodRegion, TwoDimensionalAgreesWithOpenCvAndSkimageOnFixedImages) {
   for (const ObjectRecord& object : subject.truth.objects) {
     if (object.kind != ObjectKind::lesion || phantom_cases.size() >= 4) continue;
     const Geometry& g = subject.image.geometry();
-    const std::array<int, 3> seed{static_cast<int>(std::lround((object.centre_mm[0] - g.origin_mm[0]) / g.spacing_mm[0])),
-                                  static_cast<int>(std::lround((object.centre_mm[1] - g.origin_mm[1]) / g.spacing_mm[1])), 0};
+    const std::array<int, 3> seed{
+        static_cast<int>(std::lround((object.centre_mm[0] - g.origin_mm[0]) / g.spacing_mm[0])),
+        static_cast<int>(std::lround((object.centre_mm[1] - g.origin_mm[1]) / g.spacing_mm[1])), 0};
     phantom_cases.push_back({seed, 0.25, phantom_cases.size() % 2 == 0 ? 4 : 8});
   }
   phantom_cases.push_back({{64, 64, 0}, 0.1, 4});
   phantom_cases.push_back({{64, 64, 0}, 0.1, 8});
   const std::vector<LabelImage> phantom_skimage = skimage_flood(subject.image, phantom_cases, "phantom2d");
   for (std::size_t c = 0; c < phantom_cases.size(); ++c) {
-    const LabelImage ours = flood_region(subject.image, phantom_cases[c].seed, phantom_cases[c].tolerance,
-                                         phantom_cases[c].connectivity);
+    const LabelImage ours =
+        flood_region(subject.image, phantom_cases[c].seed, phantom_cases[c].tolerance, phantom_cases[c].connectivity);
     EXPECT_GT(voxel_count(ours), 0);
     EXPECT_EQ(ours.voxels(), opencv_flood(subject.image, phantom_cases[c]).voxels()) << "phantom case " << c;
     EXPECT_EQ(ours.voxels(), phantom_skimage[c].voxels()) << "phantom case " << c;
@@ -238,7 +240,8 @@ TEST(MakePartialMask, TightToleranceMissesFaintPartsAndLooseToleranceLeaks) {
                 overlaps[t].precision());
   for (std::size_t t = 1; t < tolerances.size(); ++t) {
     EXPECT_GT(overlaps[t].recall(), overlaps[t - 1].recall()) << "seed " << seed << " tolerance " << tolerances[t];
-    EXPECT_LT(overlaps[t].precision(), overlaps[t - 1].precision()) << "seed " << seed << " tolerance " << tolerances[t];
+    EXPECT_LT(overlaps[t].precision(), overlaps[t - 1].precision())
+        << "seed " << seed << " tolerance " << tolerances[t];
   }
   EXPECT_LT(overlaps.front().recall(), 0.4) << "a tight tolerance should miss most of each lesion";
   EXPECT_GT(overlaps.front().precision(), 0.95) << "and mark almost nothing else";
@@ -270,9 +273,9 @@ TEST(MakePartialMask, LeakedRegionsAreCutBackToTheLesionsBall) {
         const std::array<double, 3> p = g.world_mm(x, y, 0);
         bool near_a_lesion = false;
         for (const ObjectRecord& o : subject.truth.objects)
-          near_a_lesion = near_a_lesion || (o.kind == ObjectKind::lesion &&
-                                            std::hypot(p[0] - o.centre_mm[0], p[1] - o.centre_mm[1]) <=
-                                                0.5 * o.length_mm + 1.0 + 1.5 * std::sqrt(2.0) + 1e-9);
+          near_a_lesion = near_a_lesion ||
+                          (o.kind == ObjectKind::lesion && std::hypot(p[0] - o.centre_mm[0], p[1] - o.centre_mm[1]) <=
+                                                               0.5 * o.length_mm + 1.0 + 1.5 * std::sqrt(2.0) + 1e-9);
         ASSERT_TRUE(near_a_lesion) << "seed " << seed << " subject " << n << " voxel " << x << "," << y;
       }
     if (subject.truth.count > 0) {
@@ -298,7 +301,8 @@ TEST(MakePartialMask, SeedsTheMostConspicuousNoticedLesions) {
     const std::vector<bool> noticed = notice_objects(subject.truth, rater.detection, replay);
     std::vector<std::pair<double, std::size_t>> ranked;
     for (std::size_t o = 0; o < noticed.size(); ++o)
-      if (noticed[o]) ranked.emplace_back(std::abs(subject.truth.objects[o].contrast) * subject.truth.objects[o].width_mm, o);
+      if (noticed[o])
+        ranked.emplace_back(std::abs(subject.truth.objects[o].contrast) * subject.truth.objects[o].width_mm, o);
     std::stable_sort(ranked.begin(), ranked.end(), [](const auto& a, const auto& b) { return a.first > b.first; });
     const std::size_t used = std::min<std::size_t>(ranked.size(), 2);
     EXPECT_DOUBLE_EQ(label.cost_seconds, rater.cost.partial_per_image_s + rater.cost.partial_per_seed_s * used);
@@ -329,8 +333,9 @@ TEST(MakePartialMask, SeedsTheMostConspicuousNoticedLesions) {
   EXPECT_LE(missed_marked, 1);
 }
 
-// 3D subjects grow in 3D (6-neighbourhood by default) and mark mostly lesion voxels at the
-// default tolerance.
+// 3D subjects grow in 3D (6-neighbourhood by default) and, at the default tolerance with the leak
+// limit, mark mostly lesion voxels (measured 0.90 here; the 0.8 floor is common practice for a
+// usable seeded tool, no source).
 TEST(MakePartialMask, ThreeDimensionalSubjects) {
   const std::uint64_t seed = 5;
   const RaterOptions rater = sees_every_lesion();

@@ -2,6 +2,8 @@
 
 #include <gtest/gtest.h>
 
+#include <cmath>
+
 #include "phantoms/user_error.h"
 
 namespace frugal {
@@ -26,8 +28,11 @@ struct Case {
 class Calibration : public ::testing::TestWithParam<Case> {};
 
 // The calibrated rater reproduces the requested agreement: on the calibration pilot to the search
-// tolerance, and on an independent pilot (another seed) within that pilot's 95% interval
-// (the interval of the statistic: kappa's large-sample SE, ICC's F-based interval, Dice's mean).
+// tolerance, and on an independent pilot (another seed) within 3 standard errors of the
+// difference between two independent pilots of the same size (sqrt(2) SE; the SE is the fresh
+// pilot's 95% half-width / 1.96: kappa's large-sample SE, ICC's F-based interval, Dice's mean).
+// The calibration pilot's own sampling error carries into the calibrated value, hence sqrt(2);
+// 3 SE makes a chance failure about 3 in 1000 (common practice, no source).
 TEST_P(Calibration, ReproducesTheRequestedAgreement) {
   const Case c = GetParam();
   const ScenarioOptions scenario = pilot_scenario(c.family);
@@ -41,8 +46,8 @@ TEST_P(Calibration, ReproducesTheRequestedAgreement) {
   EXPECT_LE(result.lower, c.target);
   EXPECT_GE(result.upper, c.target);
   const Agreement fresh = simulated_agreement(scenario, result.rater, c.statistic, 300, 6);
-  EXPECT_LE(fresh.lower, c.target) << "independent pilot, seed 6: " << fresh.value;
-  EXPECT_GE(fresh.upper, c.target) << "independent pilot, seed 6: " << fresh.value;
+  const double standard_error = 0.5 * (fresh.upper - fresh.lower) / 1.96;
+  EXPECT_NEAR(fresh.value, c.target, 3.0 * std::sqrt(2.0) * standard_error) << "independent pilot, seed 6";
 }
 
 INSTANTIATE_TEST_SUITE_P(
