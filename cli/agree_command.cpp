@@ -6,9 +6,11 @@
 #include <nlohmann/json.hpp>
 
 #include <algorithm>
+#include <array>
 #include <charconv>
 #include <cmath>
 #include <cstdio>
+#include <cstring>
 #include <iostream>
 #include <memory>
 #include <set>
@@ -24,6 +26,7 @@
 #include "experiments/measure/ratings_table.h"
 #include "experiments/measure/repeatability.h"
 #include "frugal_version.h"
+#include "phantoms/image.h"
 #include "phantoms/user_error.h"
 
 namespace frugal::cli {
@@ -31,6 +34,7 @@ namespace {
 
 using nlohmann::json;
 namespace measure = frugal::measure;
+using measure::in_quotes;
 
 struct AgreeOptions {
   std::string table_path;
@@ -73,8 +77,6 @@ std::string percent(double confidence) {
 std::string pad(const std::string& text, std::size_t width) {
   return text.size() >= width ? text + " " : text + std::string(width - text.size(), ' ');
 }
-
-std::string in_quotes(const std::string& text) { return "\"" + text + "\""; }
 
 std::string rater_list(const measure::RatingsTable& table) {
   std::string names;
@@ -153,14 +155,46 @@ std::vector<double> resolve_categories(const AgreeOptions& options, const measur
   return {distinct.begin(), distinct.end()};
 }
 
+// A category exactly as the double it is: the shortest of %.15g, %.16g and %.17g that reads back
+// the same value (17 significant digits always do), so 2000000 prints as 2000000, not 2e+06.
+std::string exact_number(double value) {
+  char buffer[32];
+  for (int digits = 15; digits <= 17; ++digits) {
+    std::snprintf(buffer, sizeof buffer, "%.*g", digits, value);
+    double read_back = 0.0;
+    std::from_chars(buffer, buffer + std::strlen(buffer), read_back);
+    if (read_back == value) break;
+  }
+  return buffer;
+}
+
 std::string category_text(const std::vector<double>& categories) {
   std::string text;
-  for (std::size_t i = 0; i < categories.size(); ++i) {
-    std::ostringstream value;
-    value << categories[i];
-    text += (i ? "," : "") + value.str();
-  }
+  for (std::size_t i = 0; i < categories.size(); ++i) text += (i ? "," : "") + exact_number(categories[i]);
   return text;
+}
+
+// NaN (an undefined estimate) as JSON null, which is what json::dump writes for it anyway; said
+// here so the output does not rest on that.
+json number_or_null(double value) { return std::isnan(value) ? json() : json(value); }
+
+// The --weights names, from the one name table of the measure part.
+constexpr std::array<measure::KappaWeights, 3> kAllKappaWeights{
+    measure::KappaWeights::none, measure::KappaWeights::linear, measure::KappaWeights::quadratic};
+
+std::string kappa_weight_names() {
+  std::string names;
+  for (const measure::KappaWeights weights : kAllKappaWeights) {
+    names += (names.empty() ? "" : ", ") + to_string(weights);
+  }
+  return names;
+}
+
+measure::KappaWeights kappa_weights(const std::string& name) {
+  for (const measure::KappaWeights weights : kAllKappaWeights) {
+    if (to_string(weights) == name) return weights;
+  }
+  throw UserError("--weights " + in_quotes(name) + " is not a weighting; allowed: " + kappa_weight_names());
 }
 
 Report run_icc(const measure::RatingsTable& table, const AgreeOptions& options) {
@@ -182,13 +216,15 @@ Report run_icc(const measure::RatingsTable& table, const AgreeOptions& options) 
        << pad(percent(options.confidence) + " interval", 20) << pad("F", 10) << pad("df1", 6) << pad("df2", 6)
        << "p\n";
   json forms = json::array();
+  bool undefined_form = false;
   for (const measure::IccEstimate& e : result.estimates) {
+    undefined_form = undefined_form || std::isnan(e.value);
     forms.push_back({{"shrout_fleiss", measure::shrout_fleiss_name(e.form)},
                      {"mcgraw_wong", measure::mcgraw_wong_name(e.form)},
                      {"model", measure::icc_description(e.form)},
-                     {"icc", e.value},
-                     {"lower", e.lower},
-                     {"upper", e.upper},
+                     {"icc", number_or_null(e.value)},
+                     {"lower", number_or_null(e.lower)},
+                     {"upper", number_or_null(e.upper)},
                      {"f", e.f_statistic},
                      {"df1", e.df1},
                      {"df2", e.df2},
@@ -199,6 +235,10 @@ Report run_icc(const measure::RatingsTable& table, const AgreeOptions& options) 
          << pad(number(e.df1, 0), 6) << pad(number(e.df2, 0), 6) << p_value(e.p_value) << "\n";
   }
   report.result["forms"] = forms;
+  if (undefined_form) {
+    text << "\nn/a: the denominator of this form's formula is zero or negative for this table, so the\n"
+            "form is undefined.\n";
+  }
   text << "\nIntervals from the F distribution (Shrout & Fleiss 1979; McGraw & Wong 1996); the\n"
           "absolute-agreement forms use Satterthwaite's approximate degrees of freedom.\n";
   report.text = text.str();
@@ -211,9 +251,7 @@ Report run_kappa(const measure::RatingsTable& table, const AgreeOptions& options
   const std::vector<double> categories = resolve_categories(options, table, origin);
   measure::CohenKappaOptions kappa_options;
   kappa_options.confidence = options.confidence;
-  kappa_options.weights = options.weights == "linear"      ? measure::KappaWeights::linear
-                          : options.weights == "quadratic" ? measure::KappaWeights::quadratic
-                                                           : measure::KappaWeights::none;
+  kappa_options.weights = kappa_weights(options.weights);
   const measure::CohenKappaResult result =
       measure::cohen_kappa(table.rater_column(0), table.rater_column(1), categories, kappa_options);
   Report report;
@@ -402,7 +440,34 @@ Report run_correlation(const measure::RatingsTable& table, const AgreeOptions& o
   return report;
 }
 
+// Every statistic `frugal agree` offers, by its --stat name: the one place that maps a name to
+// the code that computes it.
+struct Statistic {
+  const char* name;
+  Report (*run)(const measure::RatingsTable& table, const AgreeOptions& options);
+};
+constexpr std::array<Statistic, 6> kStatistics{{{"icc", run_icc},
+                                                {"kappa", run_kappa},
+                                                {"fleiss", run_fleiss},
+                                                {"bland-altman", run_bland_altman},
+                                                {"repeatability", run_repeatability},
+                                                {"correlation", run_correlation}}};
+
+std::string statistic_names() {
+  std::string names;
+  for (const Statistic& statistic : kStatistics) names += (names.empty() ? "" : ", ") + std::string(statistic.name);
+  return names;
+}
+
+const Statistic& find_statistic(const std::string& name) {
+  for (const Statistic& statistic : kStatistics) {
+    if (name == statistic.name) return statistic;
+  }
+  throw UserError("--stat " + in_quotes(name) + " is not a statistic; allowed: " + statistic_names());
+}
+
 void run_agree(const AgreeOptions& options) {
+  const Statistic& statistic = find_statistic(options.statistic);
   if (!(options.confidence > 0.0 && options.confidence < 1.0)) {
     throw UserError("--confidence " + number(options.confidence, 4) + " is out of range; allowed: a level "
                     "strictly between 0 and 1, such as 0.95");
@@ -411,6 +476,7 @@ void run_agree(const AgreeOptions& options) {
   if (options.weights_given && options.statistic != "kappa") {
     throw UserError("--weights applies to --stat kappa only; Fleiss' kappa is unweighted");
   }
+  kappa_weights(options.weights);  // an unknown name fails before the table is read
   if (!options.categories.empty() && !categorical) {
     throw UserError("--categories applies to --stat kappa and --stat fleiss only");
   }
@@ -418,13 +484,8 @@ void run_agree(const AgreeOptions& options) {
     throw UserError("--limit-multiplier applies to --stat bland-altman only");
   }
   const measure::RatingsTable table = measure::read_ratings_table(options.table_path);
-  Report report;
-  if (options.statistic == "icc") report = run_icc(table, options);
-  if (options.statistic == "kappa") report = run_kappa(table, options);
-  if (options.statistic == "fleiss") report = run_fleiss(table, options);
-  if (options.statistic == "bland-altman") report = run_bland_altman(table, options);
-  if (options.statistic == "repeatability") report = run_repeatability(table, options);
-  if (options.statistic == "correlation") report = run_correlation(table, options);
+  const Report report = statistic.run(table, options);
+  FRUGAL_CHECK(!report.text.empty() && report.result.is_object());  // every runner fills both
 
   if (options.json_output) {
     json document = {{"tool", "frugal"},
@@ -468,12 +529,11 @@ void add_agree_command(CLI::App& app) {
       "Exit codes: 0 success, 2 a problem with the table or options (the message names the\n"
       "file, line and column).");
   agree->add_option("table", options->table_path, "Ratings table (CSV, wide or long layout)")->required();
-  agree->add_option("--stat", options->statistic, "Statistic to compute")
-      ->required()
-      ->check(CLI::IsMember({"icc", "kappa", "fleiss", "bland-altman", "repeatability", "correlation"}));
+  // Names are checked by run_agree against kStatistics and the weights table (a UserError, exit 2).
+  agree->add_option("--stat", options->statistic, "Statistic to compute: " + statistic_names())->required();
   agree->add_option("--weights", options->weights,
-                    "Cohen's kappa weights: none, linear (Cicchetti-Allison) or quadratic (Fleiss-Cohen)")
-      ->check(CLI::IsMember({"none", "linear", "quadratic"}))
+                    "Cohen's kappa weights: " + kappa_weight_names() +
+                        " (linear after Cicchetti-Allison, quadratic after Fleiss-Cohen)")
       ->capture_default_str();
   agree->add_option("--categories", options->categories,
                     "Full ordered category list for kappa and fleiss, e.g. 0,1,2,3 (default: every "

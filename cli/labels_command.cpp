@@ -8,9 +8,9 @@
 
 #include "cli/commands.h"
 #include "cli/progress_bar.h"
+#include "cli/scenario_option.h"
 #include "corruptors/label_set.h"
 #include "corruptors/rater_yaml.h"
-#include "phantoms/scenario_yaml.h"
 #include "phantoms/user_error.h"
 
 namespace frugal::cli {
@@ -42,12 +42,7 @@ void add_labels_command(CLI::App& app) {
   command->add_option("--dims", arguments->dims, "Override the scenario's geometry.dims (2 or 3)");
   command->add_flag("--overwrite", arguments->set.overwrite, "Allow a folder that already holds a finished label set");
   command->callback([arguments] {
-    ScenarioOptions scenario = read_scenario_file(arguments->scenario_file);
-    if (arguments->dims != 0) {
-      if (arguments->dims != 2 && arguments->dims != 3)
-        throw UserError("--dims is " + std::to_string(arguments->dims) + "; allowed 2 or 3");
-      scenario.geometry.dims = arguments->dims;
-    }
+    const ScenarioOptions scenario = read_scenario_with_dims(arguments->scenario_file, arguments->dims);
     const RaterOptions rater = read_rater_file(arguments->rater_file);
     arguments->set.kind = label_kind_from_string(arguments->kind);
     arguments->set.scope = count_scope_from_string(arguments->scope);

@@ -8,9 +8,8 @@
 
 #include "cli/commands.h"
 #include "cli/progress_bar.h"
+#include "cli/scenario_option.h"
 #include "phantoms/phantom_set.h"
-#include "phantoms/scenario_yaml.h"
-#include "phantoms/user_error.h"
 
 namespace frugal::cli {
 
@@ -42,12 +41,7 @@ void add_phantoms_command(CLI::App& app) {
       ->capture_default_str();
   command->add_flag("--overwrite", arguments->set.overwrite, "Allow a folder that already holds a finished set");
   command->callback([arguments] {
-    ScenarioOptions scenario = read_scenario_file(arguments->scenario_file);
-    if (arguments->dims != 0) {
-      if (arguments->dims != 2 && arguments->dims != 3)
-        throw UserError("--dims is " + std::to_string(arguments->dims) + "; allowed 2 or 3");
-      scenario.geometry.dims = arguments->dims;
-    }
+    const ScenarioOptions scenario = read_scenario_with_dims(arguments->scenario_file, arguments->dims);
     cv::setNumThreads(1);  // frugal parallelises over subjects itself
     ProgressBar bar("phantoms", arguments->set.count);
     const PhantomSetSummary summary =

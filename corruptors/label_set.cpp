@@ -10,9 +10,11 @@
 #include "corruptors/labeler.h"
 #include "corruptors/rater_yaml.h"
 #include "frugal_version.h"
+#include "phantoms/text_format.h"
 #include "phantoms/nifti_io.h"
 #include "phantoms/ordered_pipeline.h"
 #include "phantoms/phantom.h"
+#include "phantoms/phantom_set.h"
 #include "phantoms/scenario_yaml.h"
 #include "phantoms/truth_tables.h"
 #include "phantoms/user_error.h"
@@ -23,23 +25,21 @@ namespace frugal {
 
 namespace fs = std::filesystem;
 
-std::string LabelSetOptions::validate() const {
-  if (out_dir.empty()) return "--out is empty; give a folder for the labels";
-  if (count < 1 || count > 10'000'000) return "--count is " + std::to_string(count) + "; allowed 1..10000000";
-  if (first < 0) return "--first is " + std::to_string(first) + "; allowed 0 or more";
-  if (threads < 1 || threads > 256) return "--threads is " + std::to_string(threads) + "; allowed 1..256";
-  return {};
-}
+std::string LabelSetOptions::validate() const { return validate_subject_range(out_dir, count, first, threads); }
 
 namespace {
 
-std::string number(double value) {
-  char text[32];
-  std::snprintf(text, sizeof(text), "%.9g", value);
-  return text;
-}
-
 bool has_mask(LabelKind kind) { return kind == LabelKind::partial_mask || kind == LabelKind::outline; }
+
+// Removes what a label set writes, manifest first, so that a killed overwrite never looks finished
+// and no table or mask of an earlier set (another kind, more subjects) is left behind.
+void remove_label_set(const fs::path& root) {
+  std::error_code ignored;
+  for (const char* name : {"manifest.json", "labels.csv", "clicks.csv"}) fs::remove(root / name, ignored);
+  if (!fs::is_directory(root / "masks", ignored)) return;
+  for (const auto& entry : fs::directory_iterator(root / "masks", ignored))
+    if (entry.path().filename().string().rfind("subject_", 0) == 0) fs::remove(entry.path(), ignored);
+}
 
 struct LabelledSubject {
   std::string label_rows;
@@ -54,8 +54,8 @@ std::string labels_csv_header() { return "subject,rescan,rater,kind,value,capped
 std::string labels_csv_row(const Label& label, const std::string& mask_file) {
   const bool scalar = label.kind == LabelKind::presence || label.kind == LabelKind::count || label.kind == LabelKind::grade;
   return std::to_string(label.subject) + "," + std::to_string(label.rescan) + "," + std::to_string(label.rater) + "," +
-         to_string(label.kind) + "," + (scalar ? number(label.value) : std::string("NA")) + "," +
-         (label.capped ? "1" : "0") + "," + std::to_string(label.clicks.size()) + "," + number(label.cost_seconds) + "," +
+         to_string(label.kind) + "," + (scalar ? exact_decimal(label.value) : std::string("NA")) + "," +
+         (label.capped ? "1" : "0") + "," + std::to_string(label.clicks.size()) + "," + exact_decimal(label.cost_seconds) + "," +
          mask_file + "\n";
 }
 
@@ -66,7 +66,7 @@ std::string clicks_csv_rows(const Label& label) {
   for (std::size_t n = 0; n < label.clicks.size(); ++n) {
     const auto& p = label.clicks[n].position_mm;
     rows += std::to_string(label.subject) + "," + std::to_string(label.rescan) + "," + std::to_string(label.rater) + "," +
-            std::to_string(n + 1) + "," + number(p[0]) + "," + number(p[1]) + "," + number(p[2]) + "\n";
+            std::to_string(n + 1) + "," + exact_decimal(p[0]) + "," + exact_decimal(p[1]) + "," + exact_decimal(p[2]) + "\n";
   }
   return rows;
 }
@@ -83,7 +83,7 @@ LabelSetSummary write_label_set(const ScenarioOptions& scenario, const std::stri
     throw UserError(options.out_dir + ": already holds a finished label set (manifest.json); choose another folder "
                     "or pass --overwrite");
   std::error_code ignored;
-  fs::remove(root / "manifest.json", ignored);  // a killed overwrite must not look finished
+  if (options.overwrite) remove_label_set(root);
   fs::create_directories(root / "masks", ignored);
   if (!fs::is_directory(root / "masks")) throw UserError(options.out_dir + ": cannot create the output folders");
 

@@ -8,7 +8,7 @@
 #include <vector>
 
 #include "corruptors/detection.h"
-#include "corruptors/distance_transform.h"
+#include "phantoms/distance_transform.h"
 #include "corruptors/object_regions.h"
 #include "phantoms/image_ops.h"
 #include "phantoms/image_views.h"
@@ -170,8 +170,8 @@ SignedDistance signed_distance(const std::vector<std::uint8_t>& mask, const Shap
     inside[i] = smooth[i] >= 0.5F ? 1 : 0;
     outside[i] = 1 - inside[i];
   }
-  const std::vector<double> to_inside = squared_distance_mm2(inside, result.shape, result.spacing_mm);
-  const std::vector<double> to_outside = squared_distance_mm2(outside, result.shape, result.spacing_mm);
+  const std::vector<double> to_inside = squared_distance_to_features_mm2(inside, result.shape, result.spacing_mm);
+  const std::vector<double> to_outside = squared_distance_to_features_mm2(outside, result.shape, result.spacing_mm);
   const double step =
       std::min({result.spacing_mm[0], result.spacing_mm[1], flat ? result.spacing_mm[0] : result.spacing_mm[2]});
   result.distance_mm.resize(smooth.size());

@@ -1,5 +1,7 @@
 #include "corruptors/rater.h"
 
+#include "phantoms/text_format.h"
+
 #include <algorithm>
 #include <cmath>
 #include <cstdio>
@@ -35,16 +37,10 @@ namespace frugal {
 
 namespace {
 
-std::string number(double value) {
-  char text[32];
-  std::snprintf(text, sizeof(text), "%g", value);
-  return text;
-}
-
 // "key is value; allowed low..high unit" when value is outside [low, high] (NaN included).
 std::string check_range(const char* key, double value, double low, double high, const char* unit = "") {
   if (value >= low && value <= high) return {};
-  return std::string(key) + " is " + number(value) + "; allowed " + number(low) + ".." + number(high) +
+  return std::string(key) + " is " + format_number(value) + "; allowed " + format_number(low) + ".." + format_number(high) +
          (unit[0] != '\0' ? std::string(" ") + unit : std::string());
 }
 
@@ -67,7 +63,7 @@ constexpr double kMaxSeconds = 86400.0;  // one annotator-day per term is alread
 std::string DetectionOptions::validate() const {
   FirstError first;
   if (!(size50_mm > 0.0 && size50_mm <= 1000.0))
-    first("detection.size50_mm is " + number(size50_mm) + "; allowed > 0 up to 1000 mm");
+    first("detection.size50_mm is " + format_number(size50_mm) + "; allowed > 0 up to 1000 mm");
   first(check_range("detection.size_slope", size_slope, 0.0, 100.0, "per unit of ln(length)"));
   first(check_range("detection.contrast50", contrast50, 0.0, 10.0, "(white matter = 1)"));
   first(check_range("detection.contrast_slope", contrast_slope, 0.0, 1000.0, "per contrast unit"));
@@ -89,22 +85,22 @@ double DetectionOptions::probability(double length_mm, double contrast) const {
 std::string CountingOptions::validate() const {
   FirstError first;
   first(check_range("counting.slip_probability", slip_probability, 0.0, 0.5, "(probability)"));
-  if (cap < 0 || cap > 10000) first("counting.cap is " + number(cap) + "; allowed 0 (no cap) or 1..10000 lesions");
+  if (cap < 0 || cap > 10000) first("counting.cap is " + format_number(cap) + "; allowed 0 (no cap) or 1..10000 lesions");
   return first.take();
 }
 
 std::string GradingOptions::validate() const {
   if (bin_edges.empty() || bin_edges.size() > 20)
-    return "grading.bin_edges has " + number(static_cast<double>(bin_edges.size())) +
+    return "grading.bin_edges has " + format_number(static_cast<double>(bin_edges.size())) +
            " entries; allowed 1..20 upper edges (giving 2..21 grades)";
   for (std::size_t i = 0; i < bin_edges.size(); ++i) {
     const double edge = bin_edges[i];
     if (!(edge >= 0.0 && edge < 1.0))
-      return "grading.bin_edges entry " + number(static_cast<double>(i + 1)) + " is " + number(edge) +
+      return "grading.bin_edges entry " + format_number(static_cast<double>(i + 1)) + " is " + format_number(edge) +
              "; allowed 0 <= edge < 1 (fractions of the field)";
     if (i > 0 && !(edge > bin_edges[i - 1]))
-      return "grading.bin_edges entry " + number(static_cast<double>(i + 1)) + " is " + number(edge) +
-             "; edges must increase strictly (previous " + number(bin_edges[i - 1]) + ")";
+      return "grading.bin_edges entry " + format_number(static_cast<double>(i + 1)) + " is " + format_number(edge) +
+             "; edges must increase strictly (previous " + format_number(bin_edges[i - 1]) + ")";
   }
   FirstError first;
   first(check_range("grading.perception_sd", perception_sd, 0.0, 5.0, "logit units"));
@@ -116,13 +112,13 @@ std::string ClickOptions::validate() const { return check_range("clicks.jitter_m
 
 std::string RegionGrowOptions::validate() const {
   FirstError first;
-  if (seeds < 1 || seeds > 1000) first("region_grow.seeds is " + number(seeds) + "; allowed 1..1000 lesions");
+  if (seeds < 1 || seeds > 1000) first("region_grow.seeds is " + format_number(seeds) + "; allowed 1..1000 lesions");
   first(check_range("region_grow.tolerance", tolerance, 0.0, 1.0, "(fraction of the seed intensity)"));
   if (connectivity != 0 && connectivity != 4 && connectivity != 8 && connectivity != 6 && connectivity != 26)
-    first("region_grow.connectivity is " + number(connectivity) +
+    first("region_grow.connectivity is " + format_number(connectivity) +
           "; allowed 0 (the smallest: 4 in 2D, 6 in 3D), 4 or 8 (2D), 6 or 26 (3D)");
   if (!(max_region_mm3 > 0.0 && max_region_mm3 <= 1e6))
-    first("region_grow.max_region_mm3 is " + number(max_region_mm3) + "; allowed > 0 up to 1e+06 mm3");
+    first("region_grow.max_region_mm3 is " + format_number(max_region_mm3) + "; allowed > 0 up to 1e+06 mm3");
   return first.take();
 }
 
@@ -130,7 +126,7 @@ std::string OutlineOptions::validate() const {
   FirstError first;
   first(check_range("outline.displacement_sd_mm", displacement_sd_mm, 0.0, 20.0, "mm"));
   if (!(displacement_scale_mm > 0.0 && displacement_scale_mm <= 200.0))
-    first("outline.displacement_scale_mm is " + number(displacement_scale_mm) + "; allowed > 0 up to 200 mm");
+    first("outline.displacement_scale_mm is " + format_number(displacement_scale_mm) + "; allowed > 0 up to 200 mm");
   first(check_range("outline.bias_mm", bias_mm, -20.0, 20.0, "mm"));
   first(check_range("outline.protrusion_rate", protrusion_rate, 0.0, 20.0, "per lesion"));
   first(check_range("outline.hole_rate", hole_rate, 0.0, 20.0, "per lesion"));
@@ -159,7 +155,7 @@ std::string CostOptions::validate() const {
 
 std::string PanelOptions::validate() const {
   FirstError first;
-  if (raters < 1 || raters > 100) first("panel.raters is " + number(raters) + "; allowed 1..100");
+  if (raters < 1 || raters > 100) first("panel.raters is " + format_number(raters) + "; allowed 1..100");
   first(check_range("panel.spread", spread, 0.0, 2.0, "(SD of the log of each parameter)"));
   first(check_range("panel.bias_sd", bias_sd, 0.0, 5.0, "logit units"));
   return first.take();

@@ -1,5 +1,7 @@
 #include "corruptors/rater_yaml.h"
 
+#include "phantoms/text_format.h"
+
 #include <cstdio>
 #include <cstdlib>
 
@@ -19,16 +21,7 @@ void read_section(YamlFields& root, const char* key, Read read) {
   fields.finish();
 }
 
-// The shortest decimal text that reads back to exactly `value` ("0.05", not
-// "0.050000000000000003"), so resolved rater files stay readable and still round-trip.
-YAML::Node exact(double value) {
-  char text[32];
-  for (int digits = 15; digits <= 17; ++digits) {
-    std::snprintf(text, sizeof(text), "%.*g", digits, value);
-    if (std::strtod(text, nullptr) == value) break;
-  }
-  return YAML::Node(std::string(text));
-}
+YAML::Node exact(double value) { return YAML::Node(exact_decimal(value)); }
 
 }  // namespace
 

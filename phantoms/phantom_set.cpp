@@ -26,14 +26,19 @@ namespace frugal {
 
 namespace fs = std::filesystem;
 
-std::string PhantomSetOptions::validate() const {
-  if (out_dir.empty()) return "--out is empty; give a folder for the phantom set";
+std::string validate_subject_range(const std::string& out_dir, int count, int first, int threads) {
+  if (out_dir.empty()) return "--out is empty; give an output folder";
   if (count < 1 || count > 10'000'000) return "--count is " + std::to_string(count) + "; allowed 1..10000000";
   if (first < 0) return "--first is " + std::to_string(first) + "; allowed 0 or more";
-  if (rescans < 0 || rescans > 20) return "--rescans is " + std::to_string(rescans) + "; allowed 0..20";
-  if (threads < 1 || threads > 256) return "--threads is " + std::to_string(threads) + "; allowed 1..256";
-  if (preview_tiles < 0 || preview_tiles > 100) return "--preview-tiles is " + std::to_string(preview_tiles) + "; allowed 0..100";
   if (static_cast<long long>(first) + count > 99'999'999LL) return "--first + --count must stay below 100000000";
+  if (threads < 1 || threads > 256) return "--threads is " + std::to_string(threads) + "; allowed 1..256";
+  return {};
+}
+
+std::string PhantomSetOptions::validate() const {
+  if (std::string error = validate_subject_range(out_dir, count, first, threads); !error.empty()) return error;
+  if (rescans < 0 || rescans > 20) return "--rescans is " + std::to_string(rescans) + "; allowed 0..20";
+  if (preview_tiles < 0 || preview_tiles > 100) return "--preview-tiles is " + std::to_string(preview_tiles) + "; allowed 0..100";
   return {};
 }
 

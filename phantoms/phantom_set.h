@@ -12,6 +12,9 @@
 
 namespace frugal {
 
+// Checks shared by every command that writes one file set per range of subjects.
+std::string validate_subject_range(const std::string& out_dir, int count, int first, int threads);
+
 struct PhantomSetOptions {
   std::string out_dir;
   int count = 10;

@@ -3,16 +3,11 @@
 #include <cstdio>
 
 #include "frugal_version.h"
+#include "phantoms/text_format.h"
 
 namespace frugal {
 
 namespace {
-
-std::string number(double value) {
-  char text[32];
-  std::snprintf(text, sizeof(text), "%.9g", value);
-  return text;
-}
 
 }  // namespace
 
@@ -27,10 +22,10 @@ std::string truth_csv_header() {
 
 std::string truth_csv_row(const SubjectTruth& t, const std::string& image_file, const std::string& labels_file) {
   return std::to_string(t.subject) + "," + std::to_string(t.rescan) + "," + to_string(t.family) + "," + t.pattern + "," +
-         number(t.target) + "," + std::to_string(t.count) + "," + std::to_string(t.count_reference_slice) + "," + std::to_string(t.reference_slice) +
-         "," + number(t.burden_mm3) + "," + number(t.affected_fraction) + "," +
-         (t.family == Family::voids ? number(t.densitometry) : std::string("NA")) + "," + number(t.confounder) + "," +
-         number(t.field_volume_mm3) + "," + std::to_string(t.objects_dropped) + "," + image_file + "," + labels_file + "\n";
+         exact_decimal(t.target) + "," + std::to_string(t.count) + "," + std::to_string(t.count_reference_slice) + "," + std::to_string(t.reference_slice) +
+         "," + exact_decimal(t.burden_mm3) + "," + exact_decimal(t.affected_fraction) + "," +
+         (t.family == Family::voids ? exact_decimal(t.densitometry) : std::string("NA")) + "," + exact_decimal(t.confounder) + "," +
+         exact_decimal(t.field_volume_mm3) + "," + std::to_string(t.objects_dropped) + "," + image_file + "," + labels_file + "\n";
 }
 
 std::string objects_csv_header() {
@@ -42,10 +37,10 @@ std::string objects_csv_rows(const SubjectTruth& t) {
   std::string rows;
   for (const ObjectRecord& o : t.objects) {
     rows += std::to_string(t.subject) + "," + std::to_string(t.rescan) + "," + std::to_string(o.id) + "," +
-            to_string(o.kind) + "," + number(o.centre_mm[0]) + "," + number(o.centre_mm[1]) + "," + number(o.centre_mm[2]) +
-            "," + number(o.direction[0]) + "," + number(o.direction[1]) + "," + number(o.direction[2]) + "," +
-            number(o.length_mm) + "," + number(o.width_mm) + "," + number(o.contrast) + "," + number(o.volume_mm3) + "," +
-            number(o.mask_volume_mm3) + "," + (o.in_reference_slice ? "1" : "0") + "\n";
+            to_string(o.kind) + "," + exact_decimal(o.centre_mm[0]) + "," + exact_decimal(o.centre_mm[1]) + "," + exact_decimal(o.centre_mm[2]) +
+            "," + exact_decimal(o.direction[0]) + "," + exact_decimal(o.direction[1]) + "," + exact_decimal(o.direction[2]) + "," +
+            exact_decimal(o.length_mm) + "," + exact_decimal(o.width_mm) + "," + exact_decimal(o.contrast) + "," + exact_decimal(o.volume_mm3) + "," +
+            exact_decimal(o.mask_volume_mm3) + "," + (o.in_reference_slice ? "1" : "0") + "\n";
   }
   return rows;
 }

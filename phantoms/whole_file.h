@@ -11,6 +11,9 @@ namespace frugal {
 class WholeFile {
  public:
   explicit WholeFile(std::filesystem::path path);
+  ~WholeFile();  // removes the temporary file when commit() was never reached
+  WholeFile(const WholeFile&) = delete;
+  WholeFile& operator=(const WholeFile&) = delete;
   void write(const std::string& text) { stream_ << text; }
   void commit();  // throws UserError when the data could not be written or moved
 
@@ -18,6 +21,7 @@ class WholeFile {
   std::filesystem::path path_;
   std::filesystem::path temporary_;
   std::ofstream stream_;
+  bool committed_ = false;
 };
 
 }  // namespace frugal

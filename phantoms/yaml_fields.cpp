@@ -1,5 +1,6 @@
 #include "phantoms/yaml_fields.h"
 
+#include <filesystem>
 #include <fstream>
 
 #include "phantoms/user_error.h"
@@ -126,6 +127,8 @@ int line_of_key_path(const YAML::Node& node, const std::string& path) {
 }
 
 YAML::Node load_yaml_file(const std::string& file) {
+  std::error_code ignored;
+  if (std::filesystem::is_directory(file, ignored)) throw UserError(file + ": is a folder, not a YAML file");
   std::ifstream stream(file);
   if (!stream) throw UserError(file + ": cannot open the file for reading");
   try {

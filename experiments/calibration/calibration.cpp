@@ -13,6 +13,7 @@
 #include "experiments/measure/kappa.h"
 #include "experiments/measure/overlap.h"
 #include "phantoms/phantom.h"
+#include "phantoms/text_format.h"
 #include "phantoms/user_error.h"
 
 namespace frugal {
@@ -66,7 +67,10 @@ Agreement agreement_of(const std::vector<Subject>& subjects, const RaterOptions&
     request.rater = 1;
     const Label b = make_label(subject, rater, request, seed);
     if (statistic == CalibrationStatistic::outline_dice) {
-      dices.push_back(measure::overlap(a.mask, b.mask).dice);
+      // Two empty outlines agree trivially (Dice 1) whatever the noise; they carry no information.
+      const bool both_empty = std::none_of(a.mask.voxels().begin(), a.mask.voxels().end(), [](auto v) { return v != 0; }) &&
+                              std::none_of(b.mask.voxels().begin(), b.mask.voxels().end(), [](auto v) { return v != 0; });
+      if (!both_empty) dices.push_back(measure::overlap(a.mask, b.mask).dice);
     } else {
       first.push_back(a.value);
       second.push_back(b.value);
@@ -94,6 +98,9 @@ Agreement agreement_of(const std::vector<Subject>& subjects, const RaterOptions&
       sum += d;
       sum2 += d * d;
     }
+    if (dices.size() < 10)
+      throw UserError("only " + std::to_string(dices.size()) +
+                      " simulated subjects have an outline from either rater; raise --subjects or use a scenario with more lesions");
     const double n = static_cast<double>(dices.size());
     const double mean = sum / n;
     const double se = std::sqrt(std::max(0.0, (sum2 / n - mean * mean) * n / (n - 1.0)) / n);
@@ -129,9 +136,9 @@ CalibrationStatistic calibration_statistic_from_string(const std::string& name) 
 }
 
 std::string CalibrationOptions::validate() const {
-  if (!(target > -1.0 && target < 1.0)) return "--target is " + std::to_string(target) + "; allowed -1 < target < 1";
+  if (!(target > -1.0 && target < 1.0)) return "--target is " + format_number(target) + "; allowed -1 < target < 1";
   if (statistic == CalibrationStatistic::outline_dice && !(target > 0.0))
-    return "--target is " + std::to_string(target) + "; a Dice target lies in (0, 1)";
+    return "--target is " + format_number(target) + "; a Dice target lies in (0, 1)";
   if (subjects < 30 || subjects > 5000) return "--subjects is " + std::to_string(subjects) + "; allowed 30..5000";
   if (!(tolerance > 0.0 && tolerance < 0.1)) return "tolerance must lie in (0, 0.1)";
   return {};
@@ -163,10 +170,10 @@ CalibrationResult calibrate(const ScenarioOptions& scenario, const RaterOptions&
   result.least_noise_agreement = at_least.value;
   result.most_noise_agreement = at_most.value;
   if (!(options.target <= at_least.value && options.target >= at_most.value))
-    throw UserError("target agreement " + std::to_string(options.target) + " is outside what " + knob.name +
-                    " in [" + std::to_string(knob.least_noise) + ", " + std::to_string(knob.most_noise) +
-                    "] can reach on this scenario: " + std::to_string(at_most.value) + " .. " +
-                    std::to_string(at_least.value));
+    throw UserError("--target " + format_number(options.target) + " is outside what " + knob.name + " in [" +
+                    format_number(knob.least_noise) + ", " + format_number(knob.most_noise) +
+                    "] can reach on this scenario: " + format_number(at_most.value) + " .. " +
+                    format_number(at_least.value));
   Agreement achieved = at_least;
   double value = least;
   for (int iteration = 0; iteration < 40; ++iteration) {
@@ -175,7 +182,6 @@ CalibrationResult calibrate(const ScenarioOptions& scenario, const RaterOptions&
     if (std::abs(achieved.value - options.target) <= options.tolerance) break;
     (achieved.value > options.target ? least : most) = value;
   }
-  knob.field(trial) = value;
   result.value = value;
   result.achieved = achieved.value;
   result.lower = achieved.lower;

@@ -61,7 +61,9 @@ struct IccResult {
 IccAnova icc_anova(const Eigen::MatrixXd& ratings);
 
 // ratings: one row per subject, one column per rater, no missing values. Throws UserError for
-// fewer than 2 subjects or raters, or when every rating is the same.
+// fewer than 2 subjects or raters, when every rating is the same, or when a mean square or F ratio
+// is not finite (ratings beyond about 1e150 in magnitude). A form whose formula has a zero or
+// negative denominator for this table has value and interval NaN.
 IccResult intraclass_correlation(const Eigen::MatrixXd& ratings, const IccOptions& options = {});
 
 }  // namespace frugal::measure

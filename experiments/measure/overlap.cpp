@@ -6,7 +6,7 @@
 #include <sstream>
 #include <vector>
 
-#include "experiments/measure/distance_transform.h"
+#include "phantoms/distance_transform.h"
 #include "phantoms/user_error.h"
 
 namespace frugal::measure {

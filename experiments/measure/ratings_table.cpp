@@ -4,6 +4,7 @@
 #include <cctype>
 #include <charconv>
 #include <cmath>
+#include <filesystem>
 #include <fstream>
 #include <map>
 #include <sstream>
@@ -32,27 +33,25 @@ std::string lower(std::string text) {
   return text;
 }
 
-std::string in_quotes(const std::string& text) { return "\"" + text + "\""; }
-
 // Splits one CSV line; a field may be double-quoted with "" standing for a quote.
 std::vector<std::string> split_fields(const std::string& line, const std::string& source, int number) {
   std::vector<std::string> fields;
   std::string field;
-  bool in_quotes = false;
+  bool inside_quotes = false;
   bool was_quoted = false;
   for (std::size_t i = 0; i < line.size(); ++i) {
     const char c = line[i];
-    if (in_quotes) {
+    if (inside_quotes) {
       if (c == '"' && i + 1 < line.size() && line[i + 1] == '"') {
         field += '"';
         ++i;
       } else if (c == '"') {
-        in_quotes = false;
+        inside_quotes = false;
       } else {
         field += c;
       }
     } else if (c == '"' && trim(field).empty()) {
-      in_quotes = was_quoted = true;
+      inside_quotes = was_quoted = true;
       field.clear();
     } else if (c == ',') {
       fields.push_back(was_quoted ? field : trim(field));
@@ -62,7 +61,7 @@ std::vector<std::string> split_fields(const std::string& line, const std::string
       field += c;
     }
   }
-  if (in_quotes) {
+  if (inside_quotes) {
     throw UserError(source + " line " + std::to_string(number) +
                     ": a quoted field is not closed; allowed: fields in double quotes that end "
                     "on the same line");
@@ -107,6 +106,10 @@ double parse_rating(const std::string& text, const std::string& place) {
   if (!std::isfinite(value)) {
     throw UserError(place + ": " + in_quotes(text) + " is not a finite number; allowed: a decimal "
                             "number such as 3, -1 or 2.5");
+  }
+  if (std::fabs(value) > kLargestRating) {
+    throw UserError(place + ": " + in_quotes(text) + " is too large in magnitude for the sums of "
+                            "squares; allowed: a number from -1e150 to 1e150");
   }
   return value;
 }
@@ -232,6 +235,8 @@ void read_long(const std::vector<Row>& rows, RatingsTable& table) {
 
 }  // namespace
 
+std::string in_quotes(const std::string& text) { return "\"" + text + "\""; }
+
 std::string to_string(TableLayout layout) { return layout == TableLayout::wide ? "wide" : "long"; }
 
 std::string RatingsTableOptions::validate() const {
@@ -306,6 +311,16 @@ RatingsTable parse_ratings_table(std::istream& input, const std::string& source,
 }
 
 RatingsTable read_ratings_table(const std::string& path, const RatingsTableOptions& options) {
+  // Checked first: an ifstream opens a directory without complaint and then reads nothing.
+  std::error_code error;
+  const std::filesystem::file_status status = std::filesystem::status(path, error);
+  if (std::filesystem::is_directory(status)) {
+    throw UserError(path + ": is a directory, not a ratings table; allowed: a CSV file");
+  }
+  if (std::filesystem::exists(status) && !std::filesystem::is_regular_file(status)) {
+    throw UserError(path + ": is not a regular file (a device, pipe or socket), not a ratings table; "
+                           "allowed: a CSV file");
+  }
   std::ifstream file(path, std::ios::binary);
   if (!file) {
     throw UserError(path + ": cannot open the ratings table; allowed: a readable CSV file");

@@ -18,6 +18,13 @@ namespace frugal::measure {
 enum class TableLayout { wide, long_form };
 std::string to_string(TableLayout layout);
 
+// The largest rating magnitude accepted: squares of ratings stay finite (1e300 < DBL_MAX), so the
+// sums of squares behind ICC, limits of agreement and correlation cannot overflow to inf.
+inline constexpr double kLargestRating = 1e150;
+
+// "text" in double quotes, as every message names a file's subjects, raters and cells.
+std::string in_quotes(const std::string& text);
+
 struct RatingsTableOptions {
   int minimum_raters = 2;
   int minimum_subjects = 2;
@@ -40,6 +47,7 @@ struct RatingsTable {
   std::vector<double> rater_column(int rater) const;
 };
 
+// Throws UserError when `path` is missing, unreadable or not a regular file (a directory, say).
 RatingsTable read_ratings_table(const std::string& path, const RatingsTableOptions& options = {});
 RatingsTable parse_ratings_table(std::istream& input, const std::string& source,
                                  const RatingsTableOptions& options = {});

@@ -208,6 +208,63 @@ def main():
         done = subprocess.run([frugal, "agree", "--help"], capture_output=True, text=True, timeout=60)
         check(done.returncode == 0 and "--stat" in done.stdout and "long" in done.stdout, "--help explains layouts")
 
+        # --- Ratings whose squares overflow (1e300^2 > 1.8e308, the largest IEEE 754 double) are
+        # rejected with their cell and the allowed range, never an abort or a printed inf.
+        with open(os.path.join(work, "huge.csv"), "w") as out:
+            out.write("id,A,B\ns1,1,2\ns2,1e300,-1e300\ns3,-1e300,1e300\n")
+        for stat in ("icc", "bland-altman", "repeatability", "correlation"):
+            done = run(frugal, work, "huge.csv", "--stat", stat)
+            check(done.returncode == 2, f"huge.csv --stat {stat}: exit code {done.returncode}, expected 2")
+            check("huge.csv line 3, column 2" in done.stderr and "-1e150 to 1e150" in done.stderr,
+                  f"huge.csv --stat {stat}: message lacks cell or range: {done.stderr!r}")
+            check("inf" not in done.stdout, f"huge.csv --stat {stat} prints inf: {done.stdout!r}")
+
+        # --- ICC(2,k) with a negative denominator BMS + (JMS - EMS)/n (Shrout & Fleiss 1979;
+        # McGraw & Wong 1996 ICC(A,k)): 1/6 + (1/6 - 7/6)/3 < 0 by hand, so n/a and null, not 6.0.
+        negative = np.array([[1, 2], [2, 2], [3, 1]], float)
+        write_wide(os.path.join(work, "negative.csv"), ["id", "A", "B"],
+                   [(f"s{i + 1}", [int(v) for v in row]) for i, row in enumerate(negative)])
+        result = agree_json(frugal, work, "negative.csv", "--stat", "icc")
+        if result:
+            reference = icc_reference(negative)
+            for form in result["forms"]:
+                name = form["shrout_fleiss"]
+                if name == "ICC(2,k)":
+                    check(form["icc"] is None and form["lower"] is None and form["upper"] is None,
+                          f"ICC(2,k) with a negative denominator is null: {form!r}")
+                else:
+                    close(form["icc"], reference[name], f"negative.csv {name}")
+        done = run(frugal, work, "negative.csv", "--stat", "icc")
+        row = [line for line in done.stdout.splitlines() if line.startswith("ICC(2,k)")]
+        check(done.returncode == 0 and len(row) == 1 and "n/a" in row[0] and "6.0000" not in row[0],
+              f"ICC(2,k) row prints n/a: {row!r}")
+
+        # --- Categories print exactly (shortest %.15g..%.17g that reads back; Python's repr of
+        # the same doubles gives the same digits), never in 2e+06 style.
+        write_wide(os.path.join(work, "large_grades.csv"), ["id", "A", "B"],
+                   [("s1", [0, 2000000]), ("s2", [2000000, 2000000]), ("s3", [1234567.5, 0]), ("s4", [0, 0])])
+        done = run(frugal, work, "large_grades.csv", "--stat", "kappa")
+        check(done.returncode == 0 and "categories: 0,1234567.5,2000000 " in done.stdout and "e+06" not in done.stdout,
+              f"categories printed exactly: {done.stdout!r}")
+        done = run(frugal, work, "large_grades.csv", "--stat", "kappa", "--categories", "0,0.1,1234567.5,2000000")
+        check(done.returncode == 0 and "categories: 0,0.1,1234567.5,2000000 " in done.stdout,
+              f"--categories printed exactly: {done.stdout!r}")
+
+        # --- Unknown statistic or weighting: exit 2, every allowed name listed, no empty report.
+        for option, value, names in (("--stat", "kendall", ["icc", "kappa", "fleiss", "bland-altman",
+                                                              "repeatability", "correlation"]),
+                                     ("--weights", "cubic", ["none", "linear", "quadratic"])):
+            extra = [] if option == "--stat" else ["--stat", "kappa"]
+            done = run(frugal, work, "grades.csv", *extra, option, value)
+            check(done.returncode == 2 and done.stdout == "" and value in done.stderr
+                  and all(name in done.stderr for name in names),
+                  f"{option} {value}: exit {done.returncode}, stderr {done.stderr!r}, stdout {done.stdout!r}")
+
+        # --- A directory is named as such, not reported as an empty table.
+        done = run(frugal, work, work, "--stat", "icc")
+        check(done.returncode == 2 and work in done.stderr and "is a directory, not a ratings table" in done.stderr
+              and "empty" not in done.stderr, f"directory as table: {done.stderr!r}")
+
     if FAILURES:
         print(f"{len(FAILURES)} check(s) failed")
         return 1

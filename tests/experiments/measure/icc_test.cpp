@@ -85,6 +85,51 @@ TEST(Icc, ZeroResidualGivesFiniteIntervals) {
   EXPECT_GE(absolute.upper, absolute.value);
 }
 
+TEST(Icc, FormWithNonPositiveDenominatorIsUndefined) {
+  // 3 subjects x 2 raters. By hand from the ANOVA of Shrout & Fleiss (1979): BMS = 1/6,
+  // WMS = 5/6, JMS = 1/6, EMS = 7/6. The ICC(2,k) (McGraw & Wong 1996 ICC(A,k)) denominator
+  // BMS + (JMS - EMS)/n = 1/6 - 1/3 < 0, where the formula would give 6 with an inverted interval.
+  Eigen::MatrixXd y(3, 2);
+  y << 1, 2, 2, 2, 3, 1;
+  const IccResult result = intraclass_correlation(y);
+  const IccEstimate& undefined = result.get(IccForm::two_way_random_average);
+  EXPECT_TRUE(std::isnan(undefined.value));
+  EXPECT_TRUE(std::isnan(undefined.lower));
+  EXPECT_TRUE(std::isnan(undefined.upper));
+  // The other forms keep their values (same hand arithmetic, formulas of Shrout & Fleiss 1979):
+  // ICC(1,1) = (1/6 - 5/6)/(1/6 + 5/6), ICC(2,1) = -1/(1/6 + 7/6 - 2/3), ICC(3,1) = -1/(1/6 + 7/6),
+  // ICC(1,k) = (1/6 - 5/6)/(1/6), ICC(3,k) = (1/6 - 7/6)/(1/6).
+  EXPECT_NEAR(result.get(IccForm::one_way_single).value, -2.0 / 3.0, 1e-12);
+  EXPECT_NEAR(result.get(IccForm::two_way_random_single).value, -1.5, 1e-12);
+  EXPECT_NEAR(result.get(IccForm::two_way_mixed_single).value, -0.75, 1e-12);
+  EXPECT_NEAR(result.get(IccForm::one_way_average).value, -4.0, 1e-12);
+  EXPECT_NEAR(result.get(IccForm::two_way_mixed_average).value, -6.0, 1e-12);
+  // The F test of ICC = 0 does not depend on the form's denominator: BMS/EMS = 1/7.
+  EXPECT_NEAR(undefined.f_statistic, 1.0 / 7.0, 1e-12);
+}
+
+TEST(Icc, OverflowingRatingsAreAUserError) {
+  // Squares of 1e300 overflow to inf (IEEE 754 double, largest finite value about 1.8e308); the
+  // F distribution must never see the result. Common practice, no source.
+  Eigen::MatrixXd y(3, 2);
+  y << 1e300, -1e300, -1e300, 1e300, 1e300, 1e300;
+  EXPECT_THROW(icc_anova(y), UserError);
+  EXPECT_THROW(intraclass_correlation(y), UserError);
+  try {
+    intraclass_correlation(y);
+  } catch (const UserError& error) {
+    EXPECT_NE(std::string(error.what()).find("-1e150 to 1e150"), std::string::npos) << error.what();
+  }
+}
+
+TEST(Icc, UndefinedFRatioIsAUserError) {
+  // Equal subject means and raters that differ by an exact constant: BMS = EMS = 0, so the
+  // two-way F = BMS/EMS is 0/0 (identity of the formulas, no outside source).
+  Eigen::MatrixXd y(2, 2);
+  y << 1, 2, 1, 2;
+  EXPECT_THROW(intraclass_correlation(y), UserError);
+}
+
 TEST(Icc, NamesInBothConventions) {
   EXPECT_EQ(shrout_fleiss_name(IccForm::two_way_random_single), "ICC(2,1)");
   EXPECT_EQ(mcgraw_wong_name(IccForm::two_way_random_single), "ICC(A,1)");

@@ -66,5 +66,34 @@ TEST(RatingsTable, MissingFileIsAUserError) {
   EXPECT_THROW(read_ratings_table("/nonexistent/ratings.csv"), UserError);
 }
 
+TEST(RatingsTable, RejectsRatingsWhoseSquaresCouldOverflow) {
+  // 1e150 squared is 1e300, below the largest double (about 1.8e308, IEEE 754): the bound is
+  // accepted, anything beyond it is not. Common practice, no source.
+  const RatingsTable table = parse("id,A,B\ns1,1e150,-1e150\ns2,0,1\n");
+  EXPECT_DOUBLE_EQ(table.ratings(0, 0), 1e150);
+  EXPECT_DOUBLE_EQ(table.ratings(0, 1), -1e150);
+  expect_error("id,A,B\ns1,1e300,-1e300\ns2,0,1\n",
+               {"pilot.csv line 2, column 2", "\"1e300\"", "allowed: a number from -1e150 to 1e150"});
+  expect_error("subject,rater,value\ns1,A,1\ns1,B,-2e150\ns2,A,0\ns2,B,1\n",
+               {"pilot.csv line 3, column 3", "-1e150 to 1e150"});
+}
+
+TEST(RatingsTable, DirectoryIsAUserErrorNamingThePath) {
+  // An ifstream opens a directory on Linux and reads nothing; the message must not say "empty".
+  const std::string directory = ::testing::TempDir();
+  try {
+    read_ratings_table(directory);
+    ADD_FAILURE() << "no error for the directory " << directory;
+  } catch (const UserError& error) {
+    const std::string message = error.what();
+    EXPECT_NE(message.find(directory), std::string::npos) << message;
+    EXPECT_NE(message.find("is a directory, not a ratings table"), std::string::npos) << message;
+  }
+}
+
+TEST(RatingsTable, QuotesNamesInMessages) {
+  EXPECT_EQ(in_quotes("reader B"), "\"reader B\"");
+}
+
 }  // namespace
 }  // namespace frugal::measure

@@ -1,8 +1,8 @@
-#include "experiments/measure/distance_transform.h"
+#include "phantoms/distance_transform.h"
 
 #include <limits>
 
-namespace frugal::measure {
+namespace frugal {
 namespace {
 
 constexpr double kInfinity = std::numeric_limits<double>::infinity();
@@ -49,11 +49,15 @@ void transform_line(double* values, int count, std::ptrdiff_t stride, double spa
 }  // namespace
 
 std::vector<double> squared_distance_to_features_mm2(const Image<std::uint8_t>& features) {
-  const Shape& shape = features.shape();
-  const auto& spacing = features.geometry().spacing_mm;
+  return squared_distance_to_features_mm2(features.voxels(), features.shape(), features.geometry().spacing_mm);
+}
+
+std::vector<double> squared_distance_to_features_mm2(const std::vector<std::uint8_t>& features, const Shape& shape,
+                                                     const std::array<double, 3>& spacing) {
+  FRUGAL_CHECK(features.size() == shape.voxel_count());
   std::vector<double> distance(features.size(), kInfinity);
   for (std::size_t i = 0; i < features.size(); ++i) {
-    if (features.voxels()[i] != 0) distance[i] = 0.0;
+    if (features[i] != 0) distance[i] = 0.0;
   }
   std::vector<double> input;
   std::vector<int> parabola;
@@ -80,4 +84,4 @@ std::vector<double> squared_distance_to_features_mm2(const Image<std::uint8_t>& 
   return distance;
 }
 
-}  // namespace frugal::measure
+}  // namespace frugal

@@ -1,10 +1,11 @@
-#include "corruptors/distance_transform.h"
+#include "phantoms/distance_transform.h"
 
 #include <gtest/gtest.h>
 
 #include <cmath>
 #include <cstdlib>
 #include <fstream>
+#include <limits>
 #include <opencv2/imgproc.hpp>
 #include <string>
 
@@ -32,7 +33,7 @@ LabelImage random_features(const Shape& shape, const std::array<double, 3>& spac
 TEST(DistanceTransform, TwoDimensionalMatchesOpenCv) {
   for (double share : {0.002, 0.03, 0.3}) {
     const LabelImage features = random_features({53, 41, 1}, {1.0, 1.0, 2.0}, share, 17);
-    const std::vector<double> ours = squared_distance_mm2(features.voxels(), features.shape(), {1.0, 1.0, 2.0});
+    const std::vector<double> ours = squared_distance_to_features_mm2(features.voxels(), features.shape(), {1.0, 1.0, 2.0});
     const cv::Mat not_feature = slice_view(features) == 0;
     cv::Mat reference;
     cv::distanceTransform(not_feature, reference, cv::DIST_L2, cv::DIST_MASK_PRECISE, CV_32F);
@@ -60,17 +61,17 @@ TEST(DistanceTransform, ThreeDimensionalAnisotropicMatchesScipy) {
   std::vector<double> reference(features.size());
   std::ifstream(output, std::ios::binary)
       .read(reinterpret_cast<char*>(reference.data()), static_cast<std::streamsize>(reference.size() * sizeof(double)));
-  const std::vector<double> ours = squared_distance_mm2(features.voxels(), features.shape(), spacing);
+  const std::vector<double> ours = squared_distance_to_features_mm2(features.voxels(), features.shape(), spacing);
   for (std::size_t i = 0; i < ours.size(); ++i) ASSERT_NEAR(std::sqrt(ours[i]), reference[i], 1e-9) << "voxel " << i;
 }
 
 TEST(DistanceTransform, NoFeatureAndLoneFeature) {
   const Shape shape{5, 4, 3};
   std::vector<std::uint8_t> none(shape.voxel_count(), 0);
-  for (double d : squared_distance_mm2(none, shape, {1.0, 1.0, 1.0})) EXPECT_EQ(d, kNoFeatureDistance2);
+  for (double d : squared_distance_to_features_mm2(none, shape, {1.0, 1.0, 1.0})) EXPECT_EQ(d, std::numeric_limits<double>::infinity());
   std::vector<std::uint8_t> one(shape.voxel_count(), 0);
   one[0] = 1;
-  const std::vector<double> d = squared_distance_mm2(one, shape, {1.0, 2.0, 3.0});
+  const std::vector<double> d = squared_distance_to_features_mm2(one, shape, {1.0, 2.0, 3.0});
   // Voxel (4, 3, 2): (4 * 1)^2 + (3 * 2)^2 + (2 * 3)^2 = 16 + 36 + 36.
   EXPECT_DOUBLE_EQ(d.back(), 88.0);
 }
