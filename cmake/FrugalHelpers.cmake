@@ -27,7 +27,11 @@ function(frugal_add_test name source)
     FRUGAL_SOURCE_DIR="${PROJECT_SOURCE_DIR}" FRUGAL_PYTHON="${Python3_EXECUTABLE}"
     FRUGAL_EXECUTABLE="$<TARGET_FILE:frugal>")
   frugal_set_warnings(${name})
-  gtest_discover_tests(${name} DISCOVERY_TIMEOUT 60 PROPERTIES TIMEOUT 600)
+  # Each test program gets its own scratch folder inside the build tree, so parallel runs and
+  # other build trees never share temporary file names.
+  set(scratch "${CMAKE_BINARY_DIR}/test-scratch/${name}")
+  file(MAKE_DIRECTORY "${scratch}")
+  gtest_discover_tests(${name} DISCOVERY_TIMEOUT 60 PROPERTIES TIMEOUT 600 ENVIRONMENT "TEST_TMPDIR=${scratch}")
 endfunction()
 
 # frugal_add_python_test(<name> <script> [args...]): a reference check written against the
