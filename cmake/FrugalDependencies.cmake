@@ -17,6 +17,12 @@ target_include_directories(frugal_nifti SYSTEM INTERFACE "${NIFTI_INCLUDE_DIR}")
 target_link_libraries(frugal_nifti INTERFACE "${NIFTI_IO_LIBRARY}" "${NIFTI_ZNZ_LIBRARY}" ZLIB::ZLIB m)
 target_compile_definitions(frugal_nifti INTERFACE HAVE_ZLIB)
 
+# CPU libtorch, linked privately into experiments/learn only. Found once; its include
+# directories are marked SYSTEM there so torch's own warnings do not count against frugal.
+if(NOT Torch_FOUND)
+  find_package(Torch REQUIRED)
+endif()
+
 if(FRUGAL_BUILD_TESTS)
   find_package(GTest REQUIRED)
   # The reference checks need Debian's python3 with its numpy/scipy/skimage/nibabel packages,

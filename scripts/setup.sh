@@ -9,6 +9,8 @@ packages=(
   libnifti2-dev libniftiio-dev libznz-dev zlib1g-dev
   libcli11-dev nlohmann-json3-dev
   libgtest-dev libgmock-dev libbenchmark-dev
+  # The learning part (CPU libtorch) and TorchScript modules scripted inside its tests.
+  libtorch-dev python3-torch
   # Reference libraries that the tests compare against.
   python3 python3-numpy python3-scipy python3-sklearn python3-skimage python3-nibabel python3-opencv
 )

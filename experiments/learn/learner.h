@@ -1,0 +1,158 @@
+#pragma once
+// The learning part's public interface: a learner sees images and the labels a study bought,
+// never truth. Plain types only; torch lives in experiments/learn/*.cpp and *_internal.h.
+//
+//   TrainingSet set;  set.add(image, label);           // images + bought labels
+//   TrainOptions options;  options.strategy = ...;     // options -> validate() -> train()
+//   TrainResult result = train(set, options);
+//   Prediction p = predict(result.model, image);
+//
+// There is deliberately no constructor or function here that takes a Subject or SubjectTruth.
+
+#include <cstddef>
+#include <cstdint>
+#include <limits>
+#include <memory>
+#include <string>
+#include <vector>
+
+#include "corruptors/label.h"
+#include "corruptors/rater.h"
+#include "phantoms/image.h"
+
+namespace frugal::learn {
+
+// Strategies, each a generic published method on frugal's own small U-shaped network.
+enum class Strategy {
+  mask,          // "mask": dense segmentation from outlines; cross-entropy + soft Dice
+  count_map,     // "count-map": non-negative density map whose sum is trained to the count
+  scalar,        // "scalar": the weak label (count, grade or presence) regressed directly
+  grade_bounds,  // "grade-bounds": segmentation whose field fraction is held in the grade's interval
+};
+std::string to_string(Strategy strategy);
+Strategy strategy_from_string(const std::string& name);  // throws UserError listing the names
+// The label kinds a strategy trains from.
+std::vector<LabelKind> accepted_label_kinds(Strategy strategy);
+
+enum class Normalization { batch, instance, none };
+std::string to_string(Normalization normalization);
+
+// The field that affected fractions refer to: voxels with intensity in [low, high] (image
+// units), optionally without the components of that set that touch the image border (air
+// around a body). Defaults: the whole image. For the voids family (lungs in HU):
+// high = -400, drop_border_connected = true.
+struct FieldOptions {
+  double low = -std::numeric_limits<double>::infinity();
+  double high = std::numeric_limits<double>::infinity();
+  bool drop_border_connected = false;
+  std::string validate() const;
+};
+// 1 inside the field, 0 outside; never empty (an empty estimate falls back to the whole image).
+LabelImage estimate_field(const FloatImage& image, const FieldOptions& field);
+
+struct TrainOptions {
+  Strategy strategy = Strategy::mask;
+  int epochs = 30;
+  int batch_size = 16;
+  double learning_rate = 3e-3;      // Adam; decays to 0 over `epochs` on a cosine schedule
+  double weight_decay = 1e-5;       // Adam's L2 term
+  std::uint64_t seed = 1;
+  int threads = 2;                  // torch intra-op threads, set explicitly (Debian defaults to 1)
+  double validation_fraction = 0.2; // share of the bought labels held out for model selection
+  int patience = 8;                 // epochs without validation improvement before stopping; 0 = never
+  int width = 8;                    // channels at the finest level; doubled per level
+  int depth = 3;                    // resolution levels; image sides must divide by 2^(depth-1)
+  Normalization normalization = Normalization::batch;
+  bool channels_last = true;        // 4x faster convolutions on this CPU build (issue 4 figures)
+  bool bfloat16 = false;            // bfloat16 autocast of the forward pass; full precision when off
+  bool flips = true;                // random flips along every axis as augmentation
+  double dice_weight = 1.0;         // mask: loss = cross-entropy + dice_weight * soft Dice
+  GradingOptions grading;           // the grading rater's bins (grade-bounds, scalar on grades)
+  FieldOptions field;               // grade-bounds and affected fractions
+  std::string validate() const;     // empty, or "train.<key> = <value>: <what is allowed>"
+};
+
+// Images and the labels bought for them, one label per image. Only an image and a Label can
+// be added: truth cannot reach a learner through this type.
+class TrainingSet {
+ public:
+  TrainingSet() = default;
+  // Throws UserError when the image is empty, its shape differs from earlier images, the label's
+  // kind differs from earlier labels, or a mask label's shape differs from the image.
+  void add(FloatImage image, Label label);
+
+  std::size_t size() const { return images_.size(); }
+  bool empty() const { return images_.empty(); }
+  const FloatImage& image(std::size_t i) const { return images_.at(i); }
+  const Label& label(std::size_t i) const { return labels_.at(i); }
+  Shape shape() const;       // of every image; throws UserError when empty
+  LabelKind kind() const;    // of every label; throws UserError when empty
+
+ private:
+  std::vector<FloatImage> images_;
+  std::vector<Label> labels_;
+};
+
+struct TrainSummary {
+  int epochs_run = 0;
+  int best_epoch = 0;                     // 1-based epoch whose weights were kept
+  double best_validation_loss = 0.0;      // NaN when there was no validation split
+  std::vector<double> training_loss;      // per epoch
+  std::vector<double> validation_loss;    // per epoch (empty without a validation split)
+  double seconds = 0.0;
+  double images_per_second = 0.0;         // training images through the optimiser
+};
+
+// A trained network with everything needed to predict (strategy, normalisation, bins, field).
+class TrainedModel {
+ public:
+  struct Impl;
+  TrainedModel();
+  explicit TrainedModel(std::unique_ptr<Impl> impl);
+  TrainedModel(TrainedModel&&) noexcept;
+  TrainedModel& operator=(TrainedModel&&) noexcept;
+  ~TrainedModel();
+
+  Strategy strategy() const;
+  // Writes a checkpoint whole or not at all (".partial" then rename). Throws UserError.
+  void save(const std::string& path) const;
+  // Throws UserError naming the file when it is missing, truncated or not a frugal checkpoint.
+  static TrainedModel load(const std::string& path);
+
+  const Impl& impl() const;
+
+ private:
+  std::unique_ptr<Impl> impl_;
+};
+
+struct TrainResult {
+  TrainedModel model;
+  TrainSummary summary;
+};
+
+// Throws UserError on invalid options, an empty set, or labels the strategy cannot use.
+TrainResult train(const TrainingSet& set, const TrainOptions& options);
+
+// What a model says about one image. Fields a strategy cannot answer are NaN; `map` is empty
+// for `scalar`. Rules per strategy:
+//   mask, grade-bounds: map = lesion probability; affected_fraction = mean probability over the
+//     field (the quantity grade-bounds trains); count = connected components (8-/26-neighbour)
+//     of map > 0.5 inside the field; presence = the map's maximum; grade = the bin of the fraction.
+//   count-map: map = density (lesions per voxel); count = sum of the map; presence =
+//     1 - exp(-count) (Poisson reading of the density).
+//   scalar: count, grade (a real-valued bin index) or presence probability, whichever label
+//     kind it was trained on.
+struct Prediction {
+  FloatImage map;
+  double count = std::numeric_limits<double>::quiet_NaN();
+  double affected_fraction = std::numeric_limits<double>::quiet_NaN();
+  double presence_probability = std::numeric_limits<double>::quiet_NaN();
+  double grade = std::numeric_limits<double>::quiet_NaN();
+};
+
+// Throws UserError when the image's shape differs from the training images'. `threads` sets
+// torch's intra-op threads (predictions do not depend on it beyond float rounding).
+Prediction predict(const TrainedModel& model, const FloatImage& image, int threads = 2);
+std::vector<Prediction> predict(const TrainedModel& model, const std::vector<FloatImage>& images, int threads = 2);
+
+}  // namespace frugal::learn

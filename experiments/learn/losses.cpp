@@ -1,0 +1,49 @@
+#include "experiments/learn/losses_internal.h"
+
+#include <string>
+
+#include "experiments/learn/constraints.h"
+#include "phantoms/user_error.h"
+
+namespace frugal::learn {
+namespace internal {
+
+torch::Tensor soft_dice_loss(const torch::Tensor& probability, const torch::Tensor& target) {
+  const torch::Tensor overlap = (probability * target).sum();
+  const torch::Tensor total = probability.sum() + target.sum();
+  return 1.0 - (2.0 * overlap + 1.0) / (total + 1.0);
+}
+
+torch::Tensor size_constraint_penalty(const torch::Tensor& volume, const torch::Tensor& lower,
+                                      const torch::Tensor& upper) {
+  const torch::Tensor below = torch::relu(lower - volume);
+  const torch::Tensor above = torch::relu(volume - upper);
+  return below * below + above * above;
+}
+
+torch::Tensor count_loss(const torch::Tensor& predicted, const torch::Tensor& count, const torch::Tensor& capped) {
+  const torch::Tensor error = predicted - count;
+  // Capped counts only bound from below: an error above the cap is not an error.
+  const torch::Tensor counted = torch::where(capped > 0.5, torch::clamp_max(error, 0.0), error);
+  return counted * counted;
+}
+
+}  // namespace internal
+
+FractionInterval grade_fraction_interval(int grade, const GradingOptions& grading) {
+  if (grade < 0 || grade >= grading.bins())
+    throw UserError("grade " + std::to_string(grade) + " is outside the rater's bins 0.." +
+                    std::to_string(grading.bins() - 1));
+  const auto index = static_cast<std::size_t>(grade);
+  FractionInterval interval;
+  interval.lower = grade == 0 ? 0.0 : grading.bin_edges[index - 1];
+  interval.upper = index < grading.bin_edges.size() ? grading.bin_edges[index] : 1.0;
+  return interval;
+}
+
+double size_constraint_penalty(double volume, double lower, double upper) {
+  const auto as_tensor = [](double value) { return torch::tensor({value}, torch::kFloat64); };
+  return internal::size_constraint_penalty(as_tensor(volume), as_tensor(lower), as_tensor(upper)).item<double>();
+}
+
+}  // namespace frugal::learn

@@ -1,0 +1,102 @@
+// The size-constraint penalty and grade intervals of grade-bounds, plus the compile-time guarantee
+// that truth cannot be handed to a learner.
+#include "experiments/learn/constraints.h"
+
+#include <gtest/gtest.h>
+
+#include <type_traits>
+#include <utility>
+#include <vector>
+
+#include "experiments/learn/learner.h"
+#include "phantoms/subject.h"
+#include "phantoms/user_error.h"
+
+namespace frugal::learn {
+namespace {
+
+// Detection idiom: can TrainingSet::add be called with these arguments?
+template <class Image, class LabelArg, class = void>
+struct can_add : std::false_type {};
+template <class Image, class LabelArg>
+struct can_add<Image, LabelArg,
+               std::void_t<decltype(std::declval<TrainingSet&>().add(std::declval<Image>(), std::declval<LabelArg>()))>>
+    : std::true_type {};
+
+// Positive control: the idiom does detect the intended call.
+static_assert(can_add<FloatImage, Label>::value);
+// No way in for truth: not a Subject, its SubjectTruth, nor its truth label image.
+static_assert(!can_add<const Subject&, Label>::value);
+static_assert(!can_add<FloatImage, const SubjectTruth&>::value);
+static_assert(!can_add<FloatImage, const LabelImage&>::value);
+static_assert(!can_add<const Subject&, const SubjectTruth&>::value);
+static_assert(!std::is_constructible_v<TrainingSet, std::vector<Subject>>);
+static_assert(!std::is_constructible_v<TrainingSet, const Subject&>);
+static_assert(!std::is_constructible_v<TrainingSet, std::vector<Subject>, std::vector<Label>>);
+static_assert(!std::is_constructible_v<TrainingSet, std::vector<FloatImage>, std::vector<SubjectTruth>>);
+static_assert(!std::is_invocable_v<decltype(train)&, const std::vector<Subject>&, const TrainOptions&>);
+static_assert(!std::is_invocable_v<decltype(train)&, const Subject&, const TrainOptions&>);
+static_assert(std::is_invocable_v<decltype(train)&, const TrainingSet&, const TrainOptions&>);
+
+TEST(SizeConstraintPenalty, MatchesTheWorkedCheck) {
+  // Kervadec et al. 2019 penalty; check values from VALIDATION.md §9: bounds [60, 100],
+  // V = 40 or 120 -> 400, V = 80 -> 0.
+  EXPECT_DOUBLE_EQ(size_constraint_penalty(40.0, 60.0, 100.0), 400.0);
+  EXPECT_DOUBLE_EQ(size_constraint_penalty(120.0, 60.0, 100.0), 400.0);
+  EXPECT_DOUBLE_EQ(size_constraint_penalty(80.0, 60.0, 100.0), 0.0);
+  // At the bounds the penalty is zero (closed interval; common practice, no source).
+  EXPECT_DOUBLE_EQ(size_constraint_penalty(60.0, 60.0, 100.0), 0.0);
+  EXPECT_DOUBLE_EQ(size_constraint_penalty(100.0, 60.0, 100.0), 0.0);
+  // Image-tag negative: a = b = 0 gives V^2 (same paper).
+  EXPECT_DOUBLE_EQ(size_constraint_penalty(0.25, 0.0, 0.0), 0.0625);
+}
+
+TEST(GradeFractionInterval, FollowsTheRatersBins) {
+  // Bins of GradingOptions' default: grade k holds (edge[k-1], edge[k]] (corruptors/grade.cpp).
+  const GradingOptions grading;
+  EXPECT_DOUBLE_EQ(grade_fraction_interval(0, grading).lower, 0.0);
+  EXPECT_DOUBLE_EQ(grade_fraction_interval(0, grading).upper, 0.0);
+  EXPECT_DOUBLE_EQ(grade_fraction_interval(2, grading).lower, 0.03);
+  EXPECT_DOUBLE_EQ(grade_fraction_interval(2, grading).upper, 0.10);
+  EXPECT_DOUBLE_EQ(grade_fraction_interval(5, grading).lower, 0.50);
+  EXPECT_DOUBLE_EQ(grade_fraction_interval(5, grading).upper, 1.0);
+  EXPECT_THROW(grade_fraction_interval(6, grading), UserError);
+  EXPECT_THROW(grade_fraction_interval(-1, grading), UserError);
+}
+
+TEST(TrainOptions, ValidateNamesTheKey) {
+  TrainOptions options;
+  EXPECT_EQ(options.validate(), "");
+  options.epochs = 0;
+  EXPECT_NE(options.validate().find("train.epochs"), std::string::npos);
+  options = TrainOptions{};
+  options.validation_fraction = 0.95;
+  EXPECT_NE(options.validate().find("train.validation_fraction"), std::string::npos);
+  EXPECT_THROW(strategy_from_string("density"), UserError);
+  EXPECT_EQ(strategy_from_string("grade-bounds"), Strategy::grade_bounds);
+  EXPECT_EQ(to_string(Strategy::count_map), "count-map");
+}
+
+TEST(TrainingSet, RejectsMixedShapesAndKinds) {
+  Geometry geometry;
+  geometry.shape = Shape{8, 8, 1};
+  TrainingSet set;
+  Label count;
+  count.kind = LabelKind::count;
+  set.add(FloatImage(geometry), count);
+  Geometry other = geometry;
+  other.shape.x = 16;
+  EXPECT_THROW(set.add(FloatImage(other), count), UserError);
+  Label grade;
+  grade.kind = LabelKind::grade;
+  EXPECT_THROW(set.add(FloatImage(geometry), grade), UserError);
+  EXPECT_THROW(set.add(FloatImage(), count), UserError);
+  // A strategy that cannot use the labels is refused before any training.
+  set.add(FloatImage(geometry), count);
+  TrainOptions options;
+  options.strategy = Strategy::mask;
+  EXPECT_THROW(train(set, options), UserError);
+}
+
+}  // namespace
+}  // namespace frugal::learn

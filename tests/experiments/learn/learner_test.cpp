@@ -1,0 +1,262 @@
+// Each strategy against its trivial baseline on a small fixed problem, plus determinism,
+// checkpoints and the no-truth guarantee. Seeds are fixed and printed; truth only scores.
+#include "experiments/learn/learner.h"
+
+#include <gtest/gtest.h>
+
+#include <algorithm>
+#include <cmath>
+#include <cstdio>
+#include <filesystem>
+#include <fstream>
+#include <numeric>
+#include <vector>
+
+#include "learn_test_problems.h"
+#include "phantoms/user_error.h"
+
+namespace frugal::learn {
+namespace {
+
+using testing::buy_labels;
+using testing::careful_rater;
+using testing::draw_subjects;
+using testing::images_of;
+using testing::small_scenario;
+using testing::training_set;
+
+constexpr std::uint64_t kSeed = 20240611;
+
+// The strategy-versus-baseline tests below are timed on an idle two-core machine (2 torch
+// threads): each trains in under 30 s.
+constexpr int kTrainSubjects = 256;
+constexpr int kTestSubjects = 96;
+constexpr int kSide = 48;  // 2D 48 x 48 phantoms: small enough for the suite's time budget
+
+TrainOptions quick_options(Strategy strategy) {
+  TrainOptions options;
+  options.strategy = strategy;
+  options.epochs = 25;
+  options.batch_size = 16;
+  options.seed = kSeed;
+  options.threads = 2;
+  options.validation_fraction = 0.15;
+  options.patience = 6;
+  return options;
+}
+
+double mean_absolute_error(const std::vector<double>& predicted, const std::vector<double>& truth) {
+  double sum = 0.0;
+  for (std::size_t i = 0; i < truth.size(); ++i) sum += std::abs(predicted[i] - truth[i]);
+  return sum / static_cast<double>(truth.size());
+}
+
+double mean_of(const std::vector<double>& values) {
+  return std::accumulate(values.begin(), values.end(), 0.0) / static_cast<double>(values.size());
+}
+
+// The counting problem: streaks only, 6-12 mm long, 1.5-2.5 mm wide, contrast 0.6-1.0, noise
+// sigma 0.02, and none of the confounding dots and lines. At 48 x 48 voxels of 1 mm a default
+// 3 mm streak and a 3 mm dot differ by a voxel or two, so with the confounders in, 30 epochs
+// reached only MAE ratios of 0.54 (scalar) and 0.57 (count-map) against the 0.6 margin (and
+// 0.84-0.87 with the default streaks); these tests check that each strategy learns to count from count
+// labels, not that it separates look-alikes at the limit of resolution.
+ScenarioOptions counting_scenario() {
+  ScenarioOptions scenario = small_scenario(Family::streaks, kSide);
+  scenario.streaks.length_mm = Distribution::uniform_between(6.0, 12.0);
+  scenario.streaks.width_mm = Distribution::uniform_between(1.5, 2.5);
+  scenario.streaks.contrast = Distribution::uniform_between(0.6, 1.0);
+  scenario.streaks.dots = CountDistribution{CountDistribution::Kind::fixed, 0.0, 2.0, 0, 0, 0};
+  scenario.streaks.lines = scenario.streaks.dots;
+  scenario.noise.sigma = 0.02;
+  return scenario;
+}
+
+struct CountOutcome {
+  double model_mae = 0.0;
+  double baseline_mae = 0.0;
+};
+
+// Trains on counts of streaks subjects and scores counts against the true lesion count; the
+// baseline predicts the training labels' mean for every test subject.
+CountOutcome count_outcome(Strategy strategy) {
+  std::printf("seed %llu\n", static_cast<unsigned long long>(kSeed));
+  const ScenarioOptions scenario = counting_scenario();
+  const auto train_subjects = draw_subjects(scenario, kSeed, 0, kTrainSubjects);
+  const auto test_subjects = draw_subjects(scenario, kSeed, kTrainSubjects, kTestSubjects);
+  const auto labels = buy_labels(train_subjects, LabelKind::count, careful_rater(), kSeed);
+  TrainOptions options = quick_options(strategy);
+  // 30 epochs without early stopping: with batch normalisation the validation loss of the
+  // 38-subject split jumps by 10x between early epochs and settles only once the cosine schedule
+  // has lowered the rate, so patience 6 stopped scalar at epoch 13 with early, poor weights.
+  options.epochs = 30;
+  options.patience = 0;
+  const TrainResult result = train(training_set(train_subjects, labels), options);
+  const auto predictions = predict(result.model, images_of(test_subjects));
+  std::vector<double> label_values, predicted, truth;
+  for (const Label& label : labels) label_values.push_back(label.value);
+  for (std::size_t i = 0; i < test_subjects.size(); ++i) {
+    predicted.push_back(predictions[i].count);
+    truth.push_back(test_subjects[i].truth.count);
+  }
+  const double training_mean = mean_of(label_values);
+  CountOutcome outcome;
+  outcome.model_mae = mean_absolute_error(predicted, truth);
+  outcome.baseline_mae = mean_absolute_error(std::vector<double>(truth.size(), training_mean), truth);
+  std::printf("%s: count MAE %.3f, mean-prediction MAE %.3f, %d epochs, %.1f s, %.0f images/s\n",
+              to_string(strategy).c_str(), outcome.model_mae, outcome.baseline_mae, result.summary.epochs_run,
+              result.summary.seconds, result.summary.images_per_second);
+  return outcome;
+}
+
+// Margin 0.6: a method that only learnt the mean count scores 1.0; 0.6 asks it to remove well
+// over a third of the spread of the placed count (Poisson(6) drawn, 4.7 placed on
+// average at this size) from the image, which a careful rater's labels
+// allow and which chance does not give on 96 test subjects (common practice, no source).
+TEST(CountMap, BeatsTheMeanCountByTheMargin) {
+  const CountOutcome outcome = count_outcome(Strategy::count_map);
+  EXPECT_LE(outcome.model_mae, 0.6 * outcome.baseline_mae);
+}
+
+TEST(Scalar, BeatsTheMeanCountByTheMargin) {
+  const CountOutcome outcome = count_outcome(Strategy::scalar);
+  EXPECT_LE(outcome.model_mae, 0.6 * outcome.baseline_mae);
+}
+
+// Dice >= 0.6 against the true lesion mask from exact outlines: streak lesions are 1-2 mm wide,
+// so a one-voxel boundary error alone costs up to a third of the Dice; 0.6 leaves room for that
+// while being far above what marking nothing (0) or the brightest voxels would score (common
+// practice, no source).
+TEST(Mask, SegmentsLesionsFromCleanOutlines) {
+  std::printf("seed %llu\n", static_cast<unsigned long long>(kSeed));
+  const ScenarioOptions scenario = small_scenario(Family::streaks, kSide);
+  const auto train_subjects = draw_subjects(scenario, kSeed, 0, kTrainSubjects);
+  const auto test_subjects = draw_subjects(scenario, kSeed, kTrainSubjects, kTestSubjects);
+  const auto labels = buy_labels(train_subjects, LabelKind::outline, careful_rater(), kSeed);
+  const TrainResult result = train(training_set(train_subjects, labels), quick_options(Strategy::mask));
+  const auto predictions = predict(result.model, images_of(test_subjects));
+  double overlap = 0.0, predicted_voxels = 0.0, true_voxels = 0.0;
+  for (std::size_t i = 0; i < test_subjects.size(); ++i) {
+    const LabelImage& truth = test_subjects[i].labels;
+    for (std::size_t v = 0; v < truth.size(); ++v) {
+      const bool lesion = truth.data()[v] == kLesion;
+      const bool marked = predictions[i].map.data()[v] > 0.5F;
+      overlap += lesion && marked ? 1.0 : 0.0;
+      predicted_voxels += marked ? 1.0 : 0.0;
+      true_voxels += lesion ? 1.0 : 0.0;
+    }
+  }
+  const double dice = 2.0 * overlap / (predicted_voxels + true_voxels);
+  std::printf("mask: pooled Dice %.3f, %d epochs, %.1f s\n", dice, result.summary.epochs_run, result.summary.seconds);
+  EXPECT_GE(dice, 0.6);
+}
+
+// Fraction MAE <= 0.6 x the MAE of predicting the training subjects' mean true fraction (a
+// baseline that is given truth it should not have, so beating it is conservative). Grades only
+// give an interval per subject; 0.6 asks the network to place subjects within their bins
+// consistently (common practice, no source).
+TEST(GradeBounds, RecoversTheAffectedFraction) {
+  std::printf("seed %llu\n", static_cast<unsigned long long>(kSeed));
+  const ScenarioOptions scenario = small_scenario(Family::voids, kSide);
+  const auto train_subjects = draw_subjects(scenario, kSeed, 0, kTrainSubjects);
+  const auto test_subjects = draw_subjects(scenario, kSeed, kTrainSubjects, kTestSubjects);
+  const RaterOptions rater = careful_rater();
+  const auto labels = buy_labels(train_subjects, LabelKind::grade, rater, kSeed);
+  TrainOptions options = quick_options(Strategy::grade_bounds);
+  options.grading = rater.grading;
+  options.field.high = -400.0;  // lungs (about -850 HU) and their voids; body and air excluded below
+  options.field.drop_border_connected = true;
+  const TrainResult result = train(training_set(train_subjects, labels), options);
+  const auto predictions = predict(result.model, images_of(test_subjects));
+  std::vector<double> train_truth, predicted, truth;
+  for (const Subject& subject : train_subjects) train_truth.push_back(subject.truth.affected_fraction);
+  for (std::size_t i = 0; i < test_subjects.size(); ++i) {
+    predicted.push_back(predictions[i].affected_fraction);
+    truth.push_back(test_subjects[i].truth.affected_fraction);
+  }
+  const double model_mae = mean_absolute_error(predicted, truth);
+  const double baseline_mae = mean_absolute_error(std::vector<double>(truth.size(), mean_of(train_truth)), truth);
+  std::printf("grade-bounds: fraction MAE %.4f, mean-prediction MAE %.4f, %d epochs, %.1f s\n", model_mae, baseline_mae,
+              result.summary.epochs_run, result.summary.seconds);
+  EXPECT_LE(model_mae, 0.6 * baseline_mae);
+}
+
+// A tiny problem for the exactness checks: same seed and threads must give the same bits.
+class TinyProblem : public ::testing::Test {
+ protected:
+  static void SetUpTestSuite() {
+    const ScenarioOptions scenario = small_scenario(Family::streaks, 48);
+    subjects_ = new std::vector<Subject>(draw_subjects(scenario, kSeed, 0, 48));
+    labels_ = new std::vector<Label>(buy_labels(*subjects_, LabelKind::count, careful_rater(), kSeed));
+  }
+  static void TearDownTestSuite() {
+    delete subjects_;
+    delete labels_;
+  }
+  static TrainOptions tiny_options() {
+    TrainOptions options = quick_options(Strategy::count_map);
+    options.epochs = 2;
+    return options;
+  }
+  static std::vector<Prediction> train_and_predict(const std::vector<Subject>& subjects) {
+    const TrainResult result = train(training_set(subjects, *labels_), tiny_options());
+    return predict(result.model, images_of(subjects));
+  }
+  static void expect_identical(const std::vector<Prediction>& a, const std::vector<Prediction>& b) {
+    ASSERT_EQ(a.size(), b.size());
+    for (std::size_t i = 0; i < a.size(); ++i) {
+      EXPECT_EQ(a[i].count, b[i].count) << "subject " << i;
+      EXPECT_EQ(a[i].map.voxels(), b[i].map.voxels()) << "subject " << i;
+    }
+  }
+  static std::vector<Subject>* subjects_;
+  static std::vector<Label>* labels_;
+};
+std::vector<Subject>* TinyProblem::subjects_ = nullptr;
+std::vector<Label>* TinyProblem::labels_ = nullptr;
+
+TEST_F(TinyProblem, SameSeedAndThreadsGiveIdenticalPredictions) {
+  std::printf("seed %llu\n", static_cast<unsigned long long>(kSeed));
+  expect_identical(train_and_predict(*subjects_), train_and_predict(*subjects_));
+}
+
+TEST_F(TinyProblem, CheckpointRoundTripGivesIdenticalPredictions) {
+  const TrainResult result = train(training_set(*subjects_, *labels_), tiny_options());
+  const auto path = std::filesystem::temp_directory_path() / "frugal_learner_test_checkpoint.pt";
+  result.model.save(path.string());
+  EXPECT_FALSE(std::filesystem::exists(path.string() + ".partial"));
+  const TrainedModel loaded = TrainedModel::load(path.string());
+  EXPECT_EQ(loaded.strategy(), Strategy::count_map);
+  expect_identical(predict(result.model, images_of(*subjects_)), predict(loaded, images_of(*subjects_)));
+  std::filesystem::remove(path);
+}
+
+TEST_F(TinyProblem, BadCheckpointIsAUserError) {
+  const auto path = std::filesystem::temp_directory_path() / "frugal_learner_test_not_a_checkpoint.pt";
+  { std::ofstream(path) << "not a checkpoint"; }
+  EXPECT_THROW(TrainedModel::load(path.string()), UserError);
+  std::filesystem::remove(path);
+  EXPECT_THROW(TrainedModel::load(path.string()), UserError);
+}
+
+// Truth is never used: labels are bought first, then the subjects' truth (objects, counts,
+// fractions and truth label images) is shuffled among subjects; training on the same images and
+// labels must give bit-identical predictions.
+TEST_F(TinyProblem, ShuffledTruthChangesNothing) {
+  std::vector<Subject> shuffled = *subjects_;
+  const std::size_t n = shuffled.size();
+  for (std::size_t i = 0; i < n; ++i) {
+    shuffled[i].truth = (*subjects_)[(i * 7 + 3) % n].truth;
+    shuffled[i].labels = (*subjects_)[(i * 7 + 3) % n].labels;
+  }
+  expect_identical(train_and_predict(*subjects_), train_and_predict(shuffled));
+}
+
+TEST_F(TinyProblem, WrongImageShapeIsAUserError) {
+  const TrainResult result = train(training_set(*subjects_, *labels_), tiny_options());
+  const ScenarioOptions other = small_scenario(Family::streaks, 64);
+  EXPECT_THROW(predict(result.model, generate_subject(other, kSeed, 0).image), UserError);
+}
+
+}  // namespace
+}  // namespace frugal::learn
