@@ -8,4 +8,10 @@ cd "$(dirname "$0")/.."
   --out demo/streaks --overwrite
 ./build/cli/frugal phantoms scenarios/screening-voids.yaml --count 64 --seed 2026 --threads "$(nproc)" \
   --out demo/voids --overwrite
-echo "Open demo/streaks/preview.png and demo/voids/preview.png; the truth is in demo/*/truth.csv."
+# What the same subjects cost to label: quick counts against careful outlines.
+./build/cli/frugal labels scenarios/ageing-cohort-streaks.yaml --rater raters/quick-reader.yaml --kind count \
+  --count 64 --seed 2026 --threads "$(nproc)" --out demo/streaks-counts --overwrite
+./build/cli/frugal labels scenarios/ageing-cohort-streaks.yaml --rater raters/careful-reader.yaml --kind outline \
+  --count 64 --seed 2026 --threads "$(nproc)" --out demo/streaks-outlines --overwrite
+echo "Open demo/streaks/preview.png and demo/voids/preview.png; the truth is in demo/*/truth.csv,"
+echo "the simulated labels and their annotator time in demo/streaks-counts and demo/streaks-outlines."
