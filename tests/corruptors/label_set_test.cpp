@@ -3,29 +3,22 @@
 #include <gtest/gtest.h>
 
 #include <algorithm>
-#include <fstream>
 
 #include <nlohmann/json.hpp>
+
+#include "tests/support/schema_columns.h"
 
 #include "frugal_version.h"
 
 namespace frugal {
 namespace {
 
-std::string columns_from_schema(const nlohmann::json& table) {
-  std::string header;
-  for (const auto& column : table) header += (header.empty() ? "" : ",") + column.at("name").get<std::string>();
-  return header + "\n";
-}
-
 // The written headers must match the versioned description in results_schema/.
 TEST(LabelSet, HeadersMatchTheVersionedSchema) {
-  std::ifstream file(std::string(FRUGAL_SOURCE_DIR) + "/results_schema/label_set_v1.json");
-  ASSERT_TRUE(file);
-  const nlohmann::json schema = nlohmann::json::parse(file);
+  const nlohmann::json schema = testing_support::load_schema("label_set_v1.json");
   EXPECT_EQ(schema.at("schema_version").get<int>(), kOutputSchemaVersion);
-  EXPECT_EQ(labels_csv_header(), columns_from_schema(schema.at("tables").at("labels.csv")));
-  EXPECT_EQ(clicks_csv_header(), columns_from_schema(schema.at("tables").at("clicks.csv")));
+  EXPECT_EQ(labels_csv_header(), testing_support::schema_header(schema, "labels.csv"));
+  EXPECT_EQ(clicks_csv_header(), testing_support::schema_header(schema, "clicks.csv"));
 }
 
 TEST(LabelSet, RowsHaveOneFieldPerColumn) {

@@ -2,30 +2,23 @@
 
 #include <gtest/gtest.h>
 
-#include <fstream>
 #include <sstream>
 
 #include <nlohmann/json.hpp>
+
+#include "tests/support/schema_columns.h"
 
 #include "frugal_version.h"
 
 namespace frugal {
 namespace {
 
-std::string columns_from_schema(const nlohmann::json& table) {
-  std::string header;
-  for (const auto& column : table) header += (header.empty() ? "" : ",") + column.at("name").get<std::string>();
-  return header + "\n";
-}
-
 // The written headers must match the versioned description users and other tools rely on.
 TEST(TruthTables, HeadersMatchTheVersionedSchema) {
-  std::ifstream file(std::string(FRUGAL_SOURCE_DIR) + "/results_schema/phantom_set_v1.json");
-  ASSERT_TRUE(file);
-  const nlohmann::json schema = nlohmann::json::parse(file);
+  const nlohmann::json schema = testing_support::load_schema("phantom_set_v1.json");
   EXPECT_EQ(schema.at("schema_version").get<int>(), kOutputSchemaVersion);
-  EXPECT_EQ(truth_csv_header(), columns_from_schema(schema.at("tables").at("truth.csv")));
-  EXPECT_EQ(objects_csv_header(), columns_from_schema(schema.at("tables").at("objects.csv")));
+  EXPECT_EQ(truth_csv_header(), testing_support::schema_header(schema, "truth.csv"));
+  EXPECT_EQ(objects_csv_header(), testing_support::schema_header(schema, "objects.csv"));
 }
 
 TEST(TruthTables, RowsHaveOneFieldPerColumnAndNaForStreaksDensitometry) {

@@ -6,18 +6,16 @@ per subject and readable NIfTI files of the requested shape.
 Run by CTest as: /usr/bin/python3 example_scenarios_test.py --frugal PATH --source REPO_DIR
 """
 
-import argparse
-import csv
 import glob
 import json
 import os
 import re
 import subprocess
-import sys
-import tempfile
 import unittest
 
 import nibabel as nib
+
+from frugal_testing import read_table, run_suite
 
 FRUGAL = None
 SOURCE = None
@@ -30,11 +28,6 @@ SIZE_3D = [32, 32, 24]  # small 3D size so that the whole suite stays fast on tw
 def bundled_scenarios():
     return sorted(glob.glob(os.path.join(SOURCE, "scenarios", "*.yaml")))
 
-
-def read_table(path):
-    """Rows of a frugal CSV table; lines starting with '#' are version comments."""
-    with open(path, newline="") as table:
-        return list(csv.DictReader(line for line in table if not line.startswith("#")))
 
 
 def scenario_name(text):
@@ -82,7 +75,7 @@ class ExampleScenariosTest(unittest.TestCase):
             name = scenario_name(text)
             with self.subTest(scenario=base, dims=2, seed=SEED):
                 self.assertIsNotNone(name, f"{path} has a name")
-                out = os.path.join(WORK.name, base + "-2d")
+                out = os.path.join(WORK, base + "-2d")
                 manifest, truth = self.run_scenario(path, out, "--dims", "2")
                 self.assertEqual(manifest["scenario"]["name"], name)
                 self.assertEqual(manifest["dims"], 2)
@@ -91,7 +84,7 @@ class ExampleScenariosTest(unittest.TestCase):
                     image = nib.load(os.path.join(out, row["image"]))
                     self.assertEqual(list(image.shape), list(geometry["size_2d"]))
             with self.subTest(scenario=base, dims=3, seed=SEED):
-                small = os.path.join(WORK.name, base + "-small3d.yaml")
+                small = os.path.join(WORK, base + "-small3d.yaml")
                 with open(small, "w") as out_file:
                     out_file.write(with_small_3d_size(text))
                 try:
@@ -101,7 +94,7 @@ class ExampleScenariosTest(unittest.TestCase):
                 if yaml is not None:
                     with open(small) as edited:
                         self.assertEqual(yaml.safe_load(edited)["geometry"]["size_3d"], SIZE_3D)
-                out = os.path.join(WORK.name, base + "-3d")
+                out = os.path.join(WORK, base + "-3d")
                 manifest, truth = self.run_scenario(small, out, "--dims", "3", "--threads", "2")
                 self.assertEqual(manifest["scenario"]["name"], name)
                 self.assertEqual(manifest["dims"], 3)
@@ -119,20 +112,11 @@ class ExampleScenariosTest(unittest.TestCase):
         self.assertTrue(with_small_3d_size("family: voids\n").endswith(f"geometry:\n  size_3d: {small}\n"))
 
 
-def main():
+def configure(frugal, source, scratch):
     global FRUGAL, SOURCE, WORK
-    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    parser.add_argument("--frugal", required=True, help="path of the frugal executable")
-    parser.add_argument("--source", required=True, help="repository root")
-    arguments, rest = parser.parse_known_args()
-    FRUGAL, SOURCE = os.path.abspath(arguments.frugal), os.path.abspath(arguments.source)
-    WORK = tempfile.TemporaryDirectory(prefix="frugal-example-scenarios-")
-    try:
-        program = unittest.main(argv=[sys.argv[0]] + rest, exit=False, verbosity=2)
-    finally:
-        WORK.cleanup()
-    sys.exit(0 if program.result.wasSuccessful() else 1)
+    FRUGAL, SOURCE, WORK = frugal, source, scratch
+
 
 
 if __name__ == "__main__":
-    main()
+    run_suite(__doc__.splitlines()[0], "frugal-example-scenarios-", configure)

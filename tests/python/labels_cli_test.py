@@ -6,19 +6,16 @@ determinism over thread counts, and clear errors for bad input.
 Run by CTest as: /usr/bin/python3 labels_cli_test.py --frugal PATH --source REPO_DIR
 """
 
-import argparse
-import csv
 import glob
 import json
 import os
-import shutil
 import subprocess
-import sys
-import tempfile
 import unittest
 
 import nibabel as nib
 import numpy as np
+
+from frugal_testing import read_table, run_suite
 
 FRUGAL = None
 SOURCE = None
@@ -27,11 +24,6 @@ SEED = 11
 COUNT = 6
 KINDS = ["presence", "count", "grade", "points", "partial", "outline"]
 
-
-def read_table(path):
-    """Rows of a frugal CSV table; lines starting with '#' are version comments."""
-    with open(path, newline="") as table:
-        return list(csv.DictReader(line for line in table if not line.startswith("#")))
 
 
 def run(*args, expect=0):
@@ -154,19 +146,11 @@ class CalibrateTest(unittest.TestCase):
         self.assertIn("--target", result.stderr)
 
 
-def main():
+def configure(frugal, source, scratch):
     global FRUGAL, SOURCE, WORK
-    parser = argparse.ArgumentParser()
-    parser.add_argument("--frugal", required=True)
-    parser.add_argument("--source", required=True)
-    args, rest = parser.parse_known_args()
-    FRUGAL, SOURCE = os.path.abspath(args.frugal), os.path.abspath(args.source)
-    WORK = tempfile.mkdtemp(prefix="frugal-labels-")
-    try:
-        return unittest.main(argv=[sys.argv[0], *rest], exit=False, verbosity=2).result.wasSuccessful()
-    finally:
-        shutil.rmtree(WORK, ignore_errors=True)
+    FRUGAL, SOURCE, WORK = frugal, source, scratch
+
 
 
 if __name__ == "__main__":
-    sys.exit(0 if main() else 1)
+    run_suite(__doc__.splitlines()[0], "frugal-labels-", configure)

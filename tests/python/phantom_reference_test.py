@@ -8,15 +8,11 @@ Run by CTest as: /usr/bin/python3 phantom_reference_test.py --frugal PATH --sour
 Every set is drawn with an explicit seed, printed in the failure message of each check.
 """
 
-import argparse
-import csv
 import json
 import math
 import os
 import re
 import subprocess
-import sys
-import tempfile
 import unittest
 
 import nibabel as nib
@@ -24,9 +20,11 @@ import numpy as np
 import skimage.measure
 from scipy import ndimage, stats
 
+from frugal_testing import read_table, run_suite
+
 FRUGAL = None   # path of the frugal executable (from --frugal)
 SOURCE = None   # repository root (from --source)
-WORK = None     # tempfile.TemporaryDirectory shared by the tests of this module
+WORK = None     # scratch folder shared by the tests of this module, removed at the end
 SEED = 20240611  # explicit seed of every set below unless a test says otherwise
 DENSITOMETRY_THRESHOLD_HU = -950.0  # Gevenois et al. 1995, Am J Respir Crit Care Med 152:653
 STREAKS_COUNT = {2: 4, 3: 10}  # subjects per streaks set; 3D is larger so the known 3D defect always shows
@@ -59,7 +57,7 @@ def phantom_set(key, scenario, count, *extra, seed=SEED):
     """A set drawn once per module run and shared by the tests that ask for the same arguments."""
     arguments = (key, scenario, count, tuple(str(e) for e in extra), seed)
     if arguments not in _SETS:
-        folder = os.path.join(WORK.name, f"{key}-n{count}-seed{seed}-{len(_SETS)}")
+        folder = os.path.join(WORK, f"{key}-n{count}-seed{seed}-{len(_SETS)}")
         _SETS[arguments] = phantoms(scenario, folder, count, *extra, seed=seed)
     return _SETS[arguments]
 
@@ -72,16 +70,11 @@ def edited_scenario(name, replacements, new_name):
         text, n = re.subn(pattern, replacement, text, flags=re.MULTILINE)
         if n == 0:
             raise AssertionError(f"scenario edit {pattern!r} matched nothing in {name}")
-    path = os.path.join(WORK.name, new_name + ".yaml")
+    path = os.path.join(WORK, new_name + ".yaml")
     with open(path, "w") as out:
         out.write(text)
     return path
 
-
-def read_table(path):
-    """Rows of a frugal CSV table as dicts; lines starting with '#' are version comments."""
-    with open(path, newline="") as table:
-        return list(csv.DictReader(line for line in table if not line.startswith("#")))
 
 
 def manifest(folder):
@@ -488,7 +481,7 @@ class DeterminismTest(unittest.TestCase):
     def test_same_seed_same_bytes_and_thread_independence(self):
         for scenario, extra in (("reference-streaks", ()), ("reference-voids", ("--dims", "3"))):
             with self.subTest(scenario=scenario, extra=extra, seed=SEED):
-                base = os.path.join(WORK.name, "determinism-" + scenario + "-".join(extra))
+                base = os.path.join(WORK, "determinism-" + scenario + "-".join(extra))
                 one = phantoms(scenario_path(scenario), base + "-a", 4, *extra, "--threads", 1)
                 again = phantoms(scenario_path(scenario), base + "-b", 4, *extra, "--threads", 1)
                 two = phantoms(scenario_path(scenario), base + "-c", 4, *extra, "--threads", 2)
@@ -612,7 +605,7 @@ class BadInputTest(unittest.TestCase):
         for name, edits, key in cases:
             with self.subTest(case=name):
                 path = edited_scenario("reference-streaks", edits, "bad-" + name)
-                out = os.path.join(WORK.name, "bad-out-" + name)
+                out = os.path.join(WORK, "bad-out-" + name)
                 self.expect_user_error([path], [os.path.basename(path), key], out)
                 # Files are written whole or not at all: no output folder for a rejected scenario.
                 self.assertFalse(os.path.exists(os.path.join(out, "manifest.json")))
@@ -621,10 +614,10 @@ class BadInputTest(unittest.TestCase):
         for dims in ("4", "1"):
             with self.subTest(dims=dims):
                 self.expect_user_error([scenario_path("reference-streaks"), "--dims", dims], ["--dims"],
-                                       os.path.join(WORK.name, "bad-dims-" + dims))
+                                       os.path.join(WORK, "bad-dims-" + dims))
 
     def test_finished_folder_needs_overwrite(self):
-        folder = phantoms(scenario_path("reference-streaks"), os.path.join(WORK.name, "finished"), 1)
+        folder = phantoms(scenario_path("reference-streaks"), os.path.join(WORK, "finished"), 1)
         before = folder_files(folder)
         self.expect_user_error([scenario_path("reference-streaks"), "--seed", SEED + 5], ["finished", "--overwrite"],
                                folder)
@@ -632,20 +625,11 @@ class BadInputTest(unittest.TestCase):
         phantoms(scenario_path("reference-streaks"), folder, 1, "--overwrite")
 
 
-def main():
+def configure(frugal, source, scratch):
     global FRUGAL, SOURCE, WORK
-    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    parser.add_argument("--frugal", required=True, help="path of the frugal executable")
-    parser.add_argument("--source", required=True, help="repository root")
-    arguments, rest = parser.parse_known_args()
-    FRUGAL, SOURCE = os.path.abspath(arguments.frugal), os.path.abspath(arguments.source)
-    WORK = tempfile.TemporaryDirectory(prefix="frugal-phantom-reference-")
-    try:
-        program = unittest.main(argv=[sys.argv[0]] + rest, exit=False, verbosity=2)
-    finally:
-        WORK.cleanup()
-    sys.exit(0 if program.result.wasSuccessful() else 1)
+    FRUGAL, SOURCE, WORK = frugal, source, scratch
+
 
 
 if __name__ == "__main__":
-    main()
+    run_suite(__doc__.splitlines()[0], "frugal-phantom-reference-", configure)
