@@ -18,21 +18,46 @@
 
 #include "corruptors/label.h"
 #include "corruptors/rater.h"
+#include "experiments/baselines/line_filter.h"
+#include "experiments/learn/augmentation.h"
 #include "phantoms/image.h"
 
 namespace frugal::learn {
 
 // Strategies, each a generic published method on frugal's own small U-shaped network.
+// docs/learning.md describes each with its loss, its source and its rule for reading a count.
 enum class Strategy {
-  mask,          // "mask": dense segmentation from outlines; cross-entropy + soft Dice
-  count_map,     // "count-map": non-negative density map whose sum is trained to the count
-  scalar,        // "scalar": the weak label (count, grade or presence) regressed directly
-  grade_bounds,  // "grade-bounds": segmentation whose field fraction is held in the grade's interval
+  mask,           // "mask": dense segmentation from outlines; cross-entropy + soft Dice
+  mask_robust,    // "mask-robust": the same with a noise-robust loss (RobustLoss)
+  partial,        // "partial": loss on marked voxels only, plus a weak background prior
+  partial_naive,  // "partial-naive": unmarked voxels taken as background (the comparison)
+  count_map,      // "count-map": non-negative density map whose sum is trained to the count
+  grade_bounds,   // "grade-bounds": segmentation whose field fraction is held in the grade's interval
+  presence_mil,   // "presence-mil": multiple-instance learning, log-sum-exp pooling of the map
+  points,         // "points": clicks as positives, an objectness prior and a size prior per click
+  scalar,         // "scalar": the weak label (count, grade or presence) regressed directly
+  mixed,          // "mixed": a few outlines plus many count, grade or presence labels, one network
+  threshold,      // "threshold": classical densitometry, no training
+  line_filter,    // "line-filter": Frangi line filter + threshold + components, no training
 };
 std::string to_string(Strategy strategy);
 Strategy strategy_from_string(const std::string& name);  // throws UserError listing the names
-// The label kinds a strategy trains from.
+// The label kinds a strategy trains from (mixed: outline plus one of the others; threshold and
+// line-filter: none, any labels given are ignored).
 std::vector<LabelKind> accepted_label_kinds(Strategy strategy);
+// True for strategies whose prediction includes a map, which a TorchScript network can provide.
+bool is_map_strategy(Strategy strategy);
+// True for threshold and line-filter, which have no network and learn nothing.
+bool is_classical(Strategy strategy);
+
+// mask-robust's loss for noisy outlines.
+enum class RobustLoss {
+  generalized_cross_entropy,  // "gce": Zhang & Sabuncu 2018, (1 - p_y^q) / q
+  bootstrapping,              // "bootstrap": Reed et al. 2015, hard bootstrapping with beta
+  label_smoothing,            // "smoothing": targets moved to epsilon / 1 - epsilon
+};
+std::string to_string(RobustLoss loss);
+RobustLoss robust_loss_from_string(const std::string& name);  // throws UserError listing the names
 
 enum class Normalization { batch, instance, none };
 std::string to_string(Normalization normalization);
@@ -65,32 +90,54 @@ struct TrainOptions {
   Normalization normalization = Normalization::batch;
   bool channels_last = true;        // 4x faster convolutions on this CPU build (issue 4 figures)
   bool bfloat16 = false;            // bfloat16 autocast of the forward pass; full precision when off
-  bool flips = true;                // random flips along every axis as augmentation
-  double dice_weight = 1.0;         // mask: loss = cross-entropy + dice_weight * soft Dice
+  AugmentationOptions augmentation; // flips (on), small rotations and smooth deformations (off)
+  double dice_weight = 1.0;         // mask, mask-robust, partial, mixed: + dice_weight * soft Dice
+  RobustLoss robust_loss = RobustLoss::generalized_cross_entropy;  // mask-robust
+  double gce_q = 0.7;               // generalized cross entropy's q in (0, 1] (Zhang & Sabuncu's 0.7)
+  double bootstrap_beta = 0.8;      // hard bootstrapping's weight on the given label (Reed et al.'s 0.8)
+  double label_smoothing = 0.1;     // label smoothing's epsilon in [0, 0.5)
+  double background_prior = 0.05;   // partial, points: weight of "unmarked voxels are mostly background"
+  double pooling_sharpness = 4.0;   // presence-mil: r of log-sum-exp pooling (large r -> max)
+  double point_radius_mm = 1.0;     // points: voxels this close to a click are positives
+  double object_size_min_mm3 = 2.0;  // points: size prior per click, in mm^3 (2D: mm^2 x slice)
+  double object_size_max_mm3 = 40.0;
+  double mask_weight = 1.0;         // mixed: loss = mask_weight * mask loss + weak_weight * weak loss
+  double weak_weight = 1.0;
+  double consistency_weight = 0.0;  // > 0 adds transformation consistency on unlabelled images
+  double threshold_hu = -950.0;     // threshold: voxels strictly below count (Gevenois et al. 1995)
+  baselines::LineCountOptions line_filter;  // line-filter: filter, threshold and counting rules
+  std::string network_file;         // TorchScript module for map strategies; empty = frugal's U-net
   GradingOptions grading;           // the grading rater's bins (grade-bounds, scalar on grades)
-  FieldOptions field;               // grade-bounds and affected fractions
+  FieldOptions field;               // grade-bounds, threshold and affected fractions
   std::string validate() const;     // empty, or "train.<key> = <value>: <what is allowed>"
 };
 
-// Images and the labels bought for them, one label per image. Only an image and a Label can
+// Images and the labels bought for them, one label per image (an image labelled twice is added
+// twice), plus optional unlabelled images for consistency training. Only images and Labels can
 // be added: truth cannot reach a learner through this type.
 class TrainingSet {
  public:
   TrainingSet() = default;
-  // Throws UserError when the image is empty, its shape differs from earlier images, the label's
-  // kind differs from earlier labels, or a mask label's shape differs from the image.
+  // Throws UserError when the image is empty, its shape differs from earlier images, or a mask
+  // label's shape differs from the image. Kinds may differ (mixed); train() checks them.
   void add(FloatImage image, Label label);
+  // An image nobody labelled (consistency training only). Same shape rule.
+  void add_unlabelled(FloatImage image);
 
   std::size_t size() const { return images_.size(); }
   bool empty() const { return images_.empty(); }
   const FloatImage& image(std::size_t i) const { return images_.at(i); }
   const Label& label(std::size_t i) const { return labels_.at(i); }
-  Shape shape() const;       // of every image; throws UserError when empty
-  LabelKind kind() const;    // of every label; throws UserError when empty
+  const std::vector<FloatImage>& unlabelled() const { return unlabelled_; }
+  Shape shape() const;                  // of every image; throws UserError when empty
+  LabelKind kind() const;               // the one kind of every label; throws UserError when empty or mixed
+  std::vector<LabelKind> kinds() const; // distinct kinds in order of first appearance
 
  private:
+  void check_shape(const FloatImage& image, const std::string& what) const;
   std::vector<FloatImage> images_;
   std::vector<Label> labels_;
+  std::vector<FloatImage> unlabelled_;
 };
 
 struct TrainSummary {
@@ -135,19 +182,24 @@ TrainResult train(const TrainingSet& set, const TrainOptions& options);
 
 // What a model says about one image. Fields a strategy cannot answer are NaN; `map` is empty
 // for `scalar`. Rules per strategy:
-//   mask, grade-bounds: map = lesion probability; affected_fraction = mean probability over the
-//     field (the quantity grade-bounds trains); count = connected components (8-/26-neighbour)
-//     of map > 0.5 inside the field; presence = the map's maximum; grade = the bin of the fraction.
+//   mask, mask-robust, partial, partial-naive, grade-bounds, presence-mil, points, mixed:
+//     map = lesion probability; affected_fraction = mean probability over the field; count =
+//     connected components (8-/26-neighbour) of map > 0.5 inside the field; presence = the map's
+//     maximum (presence-mil: its log-sum-exp pooling, the quantity it trains); grade = the bin of
+//     the fraction; burden_mm3 = number of voxels with map > 0.5 times the voxel volume.
 //   count-map: map = density (lesions per voxel); count = sum of the map; presence =
 //     1 - exp(-count) (Poisson reading of the density).
 //   scalar: count, grade (a real-valued bin index) or presence probability, whichever label
 //     kind it was trained on.
+//   threshold: map = 1 below threshold_hu in the field; affected_fraction = that fraction.
+//   line-filter: map = the line filter's response; count = counted components.
 struct Prediction {
   FloatImage map;
   double count = std::numeric_limits<double>::quiet_NaN();
   double affected_fraction = std::numeric_limits<double>::quiet_NaN();
   double presence_probability = std::numeric_limits<double>::quiet_NaN();
   double grade = std::numeric_limits<double>::quiet_NaN();
+  double burden_mm3 = std::numeric_limits<double>::quiet_NaN();
 };
 
 // Throws UserError when the image's shape differs from the training images'. `threads` sets

@@ -18,9 +18,27 @@ struct StrategyName {
 };
 constexpr StrategyName kStrategyNames[] = {
     {Strategy::mask, "mask"},
+    {Strategy::mask_robust, "mask-robust"},
+    {Strategy::partial, "partial"},
+    {Strategy::partial_naive, "partial-naive"},
     {Strategy::count_map, "count-map"},
-    {Strategy::scalar, "scalar"},
     {Strategy::grade_bounds, "grade-bounds"},
+    {Strategy::presence_mil, "presence-mil"},
+    {Strategy::points, "points"},
+    {Strategy::scalar, "scalar"},
+    {Strategy::mixed, "mixed"},
+    {Strategy::threshold, "threshold"},
+    {Strategy::line_filter, "line-filter"},
+};
+
+struct RobustLossName {
+  RobustLoss loss;
+  const char* name;
+};
+constexpr RobustLossName kRobustLossNames[] = {
+    {RobustLoss::generalized_cross_entropy, "gce"},
+    {RobustLoss::bootstrapping, "bootstrap"},
+    {RobustLoss::label_smoothing, "smoothing"},
 };
 
 std::string number(double value) {
@@ -48,12 +66,38 @@ Strategy strategy_from_string(const std::string& name) {
 
 std::vector<LabelKind> accepted_label_kinds(Strategy strategy) {
   switch (strategy) {
-    case Strategy::mask: return {LabelKind::outline};
+    case Strategy::mask:
+    case Strategy::mask_robust: return {LabelKind::outline};
+    case Strategy::partial:
+    case Strategy::partial_naive: return {LabelKind::partial_mask};
     case Strategy::count_map: return {LabelKind::count};
-    case Strategy::scalar: return {LabelKind::count, LabelKind::grade, LabelKind::presence};
     case Strategy::grade_bounds: return {LabelKind::grade};
+    case Strategy::presence_mil: return {LabelKind::presence};
+    case Strategy::points: return {LabelKind::points};
+    case Strategy::scalar: return {LabelKind::count, LabelKind::grade, LabelKind::presence};
+    case Strategy::mixed: return {LabelKind::outline, LabelKind::count, LabelKind::grade, LabelKind::presence};
+    case Strategy::threshold:
+    case Strategy::line_filter: return {};
   }
   FRUGAL_CHECK(false);
+}
+
+bool is_map_strategy(Strategy strategy) { return strategy != Strategy::scalar && !is_classical(strategy); }
+bool is_classical(Strategy strategy) { return strategy == Strategy::threshold || strategy == Strategy::line_filter; }
+
+std::string to_string(RobustLoss loss) {
+  for (const auto& entry : kRobustLossNames)
+    if (entry.loss == loss) return entry.name;
+  FRUGAL_CHECK(false);
+}
+
+RobustLoss robust_loss_from_string(const std::string& name) {
+  std::string allowed;
+  for (const auto& entry : kRobustLossNames) {
+    if (name == entry.name) return entry.loss;
+    allowed += std::string(allowed.empty() ? "" : ", ") + entry.name;
+  }
+  throw UserError("unknown robust loss '" + name + "'; allowed: " + allowed);
 }
 
 std::string to_string(Normalization normalization) {
@@ -109,33 +153,73 @@ std::string TrainOptions::validate() const {
   if (patience < 0) return "train.patience = " + number(patience) + ": must be 0 (never stop early) or more";
   if (width < 1 || width > 256) return "train.width = " + number(width) + ": allowed 1 to 256";
   if (depth < 1 || depth > 6) return "train.depth = " + number(depth) + ": allowed 1 to 6";
-  if (!(dice_weight >= 0.0) || !std::isfinite(dice_weight))
-    return "train.dice_weight = " + number(dice_weight) + ": must be zero or positive";
+  const auto non_negative = [](double value) { return value >= 0.0 && std::isfinite(value); };
+  if (!non_negative(dice_weight)) return "train.dice_weight = " + number(dice_weight) + ": must be zero or positive";
+  if (!(gce_q > 0.0 && gce_q <= 1.0)) return "train.gce_q = " + number(gce_q) + ": allowed (0, 1]";
+  if (!(bootstrap_beta >= 0.0 && bootstrap_beta <= 1.0))
+    return "train.bootstrap_beta = " + number(bootstrap_beta) + ": allowed [0, 1]";
+  if (!(label_smoothing >= 0.0 && label_smoothing < 0.5))
+    return "train.label_smoothing = " + number(label_smoothing) + ": allowed [0, 0.5)";
+  if (!non_negative(background_prior))
+    return "train.background_prior = " + number(background_prior) + ": must be zero or positive";
+  if (!(pooling_sharpness > 0.0 && pooling_sharpness <= 100.0))
+    return "train.pooling_sharpness = " + number(pooling_sharpness) + ": allowed (0, 100]";
+  if (!(point_radius_mm >= 0.0 && point_radius_mm <= 50.0))
+    return "train.point_radius_mm = " + number(point_radius_mm) + ": allowed [0, 50]";
+  if (!(object_size_min_mm3 >= 0.0 && object_size_min_mm3 < object_size_max_mm3 && std::isfinite(object_size_max_mm3)))
+    return "train.object_size_min_mm3 = " + number(object_size_min_mm3) + ", object_size_max_mm3 = " +
+           number(object_size_max_mm3) + ": need 0 <= min < max";
+  if (!non_negative(mask_weight)) return "train.mask_weight = " + number(mask_weight) + ": must be zero or positive";
+  if (!non_negative(weak_weight)) return "train.weak_weight = " + number(weak_weight) + ": must be zero or positive";
+  if (!non_negative(consistency_weight))
+    return "train.consistency_weight = " + number(consistency_weight) + ": must be zero or positive";
+  if (!std::isfinite(threshold_hu)) return "train.threshold_hu = " + number(threshold_hu) + ": must be a number";
+  if (const std::string message = augmentation.validate(); !message.empty()) return message;
+  if (const std::string message = line_filter.validate(); !message.empty()) return "train.line_filter." + message;
   if (const std::string message = grading.validate(); !message.empty()) return "train." + message;
   return field.validate();
 }
 
+void TrainingSet::check_shape(const FloatImage& image, const std::string& what) const {
+  if (image.empty()) throw UserError("training set: " + what + " is empty");
+  const FloatImage* first = !images_.empty() ? &images_.front() : !unlabelled_.empty() ? &unlabelled_.front() : nullptr;
+  if (first != nullptr && image.shape() != first->shape())
+    throw UserError("training set: " + what + " has a different shape from the first image");
+}
+
 void TrainingSet::add(FloatImage image, Label label) {
-  if (image.empty()) throw UserError("training set: image " + std::to_string(size()) + " is empty");
-  if (!images_.empty() && image.shape() != images_.front().shape())
-    throw UserError("training set: image " + std::to_string(size()) + " has a different shape from image 0");
-  if (!labels_.empty() && label.kind != labels_.front().kind)
-    throw UserError("training set: label " + std::to_string(size()) + " is a " + frugal::to_string(label.kind) +
-                    " label, the set holds " + frugal::to_string(labels_.front().kind) + " labels");
+  check_shape(image, "image " + std::to_string(size()));
   if ((label.kind == LabelKind::outline || label.kind == LabelKind::partial_mask) && label.mask.shape() != image.shape())
     throw UserError("training set: the mask of label " + std::to_string(size()) + " does not match its image's shape");
   images_.push_back(std::move(image));
   labels_.push_back(std::move(label));
 }
 
+void TrainingSet::add_unlabelled(FloatImage image) {
+  check_shape(image, "unlabelled image " + std::to_string(unlabelled_.size()));
+  unlabelled_.push_back(std::move(image));
+}
+
 Shape TrainingSet::shape() const {
-  if (images_.empty()) throw UserError("training set is empty");
-  return images_.front().shape();
+  if (!images_.empty()) return images_.front().shape();
+  if (!unlabelled_.empty()) return unlabelled_.front().shape();
+  throw UserError("training set is empty");
 }
 
 LabelKind TrainingSet::kind() const {
-  if (labels_.empty()) throw UserError("training set is empty");
-  return labels_.front().kind;
+  const std::vector<LabelKind> all = kinds();
+  if (all.empty()) throw UserError("training set is empty");
+  if (all.size() > 1)
+    throw UserError("training set holds " + frugal::to_string(all[0]) + " and " + frugal::to_string(all[1]) +
+                    " labels; only the mixed strategy takes two kinds");
+  return all.front();
+}
+
+std::vector<LabelKind> TrainingSet::kinds() const {
+  std::vector<LabelKind> all;
+  for (const Label& label : labels_)
+    if (std::find(all.begin(), all.end(), label.kind) == all.end()) all.push_back(label.kind);
+  return all;
 }
 
 }  // namespace frugal::learn
