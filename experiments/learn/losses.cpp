@@ -28,6 +28,28 @@ torch::Tensor count_loss(const torch::Tensor& predicted, const torch::Tensor& co
   return counted * counted;
 }
 
+torch::Tensor generalized_cross_entropy(const torch::Tensor& logits, const torch::Tensor& target, double q) {
+  const torch::Tensor probability = torch::sigmoid(logits);
+  // The floor keeps the gradient of p^q finite where p_y underflows to 0.
+  const torch::Tensor p_label = torch::clamp_min(target * probability + (1.0 - target) * (1.0 - probability), 1e-7);
+  return ((1.0 - torch::pow(p_label, q)) / q).mean();
+}
+
+torch::Tensor bootstrapped_target(const torch::Tensor& logits, const torch::Tensor& target, double beta) {
+  const torch::Tensor decision = (logits.detach() > 0.0).to(target.scalar_type());
+  return beta * target + (1.0 - beta) * decision;
+}
+
+torch::Tensor marked_voxel_loss(const torch::Tensor& logits, const torch::Tensor& marked, double prior_weight) {
+  const torch::Tensor towards_lesion = torch::binary_cross_entropy_with_logits(
+      logits, torch::ones_like(logits), {}, {}, torch::Reduction::None);
+  const torch::Tensor towards_background = torch::binary_cross_entropy_with_logits(
+      logits, torch::zeros_like(logits), {}, {}, torch::Reduction::None);
+  const torch::Tensor unmarked = 1.0 - marked;
+  return (towards_lesion * marked).sum() / torch::clamp_min(marked.sum(), 1.0) +
+         prior_weight * (towards_background * unmarked).sum() / torch::clamp_min(unmarked.sum(), 1.0);
+}
+
 }  // namespace internal
 
 FractionInterval grade_fraction_interval(int grade, const GradingOptions& grading) {

@@ -19,4 +19,20 @@ torch::Tensor size_constraint_penalty(const torch::Tensor& volume, const torch::
 // count ("more than cap") is a lower bound, penalised only when the sum falls below it.
 torch::Tensor count_loss(const torch::Tensor& predicted, const torch::Tensor& count, const torch::Tensor& capped);
 
+// Generalized cross entropy (Zhang & Sabuncu, "Generalized cross entropy loss for training deep
+// neural networks with noisy labels", NeurIPS 2018) for a binary map: mean of (1 - p_y^q) / q,
+// where p_y is the probability given to the labelled class. q -> 0 is cross-entropy, q = 1 the
+// noise-tolerant mean absolute error.
+torch::Tensor generalized_cross_entropy(const torch::Tensor& logits, const torch::Tensor& target, double q);
+
+// Hard bootstrapping (Reed et al., "Training deep neural networks on noisy labels with
+// bootstrapping", ICLR 2015 workshop): the target becomes beta * label + (1 - beta) * the
+// network's own current decision (p > 0.5, not differentiated).
+torch::Tensor bootstrapped_target(const torch::Tensor& logits, const torch::Tensor& target, double beta);
+
+// Cross-entropy on marked voxels only (mean over marked voxels of the batch) plus a weak prior
+// that unmarked voxels are background (weight times the mean cross-entropy towards 0 over
+// unmarked voxels): partial labels say where lesions are, not where they are not.
+torch::Tensor marked_voxel_loss(const torch::Tensor& logits, const torch::Tensor& marked, double prior_weight);
+
 }  // namespace frugal::learn::internal

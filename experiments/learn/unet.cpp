@@ -1,7 +1,10 @@
 #include "experiments/learn/unet_internal.h"
 
 #include <cmath>
+#include <memory>
 #include <string>
+
+#include "experiments/learn/network_internal.h"
 
 namespace frugal::learn::internal {
 namespace {
@@ -90,6 +93,87 @@ void to_channels_last(torch::nn::Module& module, int dims) {
     if (parameter.dim() == rank) parameter.set_data(parameter.contiguous(format));
   for (auto& buffer : module.buffers())
     if (buffer.dim() == rank) buffer.set_data(buffer.contiguous(format));
+}
+
+}  // namespace frugal::learn::internal
+
+// --- The U-net behind the Network interface -------------------------------------------------
+
+namespace frugal::learn::internal {
+namespace {
+
+class UNetNetwork : public Network {
+ public:
+  UNetNetwork(int dims, int width, int depth, Normalization normalization, bool channels_last)
+      : net_(UNetOptions(dims).width(width).depth(depth).normalization(normalization)),
+        dims_(dims),
+        channels_last_(channels_last) {
+    if (channels_last_) to_channels_last(*net_, dims_);
+  }
+  NetworkOutput forward(const torch::Tensor& input) override {
+    UNetOutput output = net_->forward(input);
+    return {output.map, output.scalar};
+  }
+  std::vector<torch::Tensor> parameters() override { return net_->parameters(); }
+  NamedTensors state() override {
+    NamedTensors state;
+    for (const auto& item : net_->named_parameters()) state.emplace_back(item.key(), item.value().detach().clone());
+    for (const auto& item : net_->named_buffers()) state.emplace_back(item.key(), item.value().detach().clone());
+    return state;
+  }
+  void restore(const NamedTensors& state) override {
+    torch::NoGradGuard no_grad;
+    auto parameters = net_->named_parameters();
+    auto buffers = net_->named_buffers();
+    for (const auto& [name, value] : state) {
+      if (torch::Tensor* parameter = parameters.find(name))
+        parameter->copy_(value);
+      else if (torch::Tensor* buffer = buffers.find(name))
+        buffer->copy_(value);
+      else
+        FRUGAL_CHECK(false);
+    }
+  }
+  void set_training(bool training) override { net_->train(training); }
+  bool has_scalar_head() const override { return true; }
+  bool set_map_bias(double value) override {
+    torch::NoGradGuard no_grad;
+    net_->map_bias().fill_(value);
+    return true;
+  }
+  void save(const std::string& path, const std::string& meta_json) override {
+    torch::serialize::OutputArchive archive;
+    net_->save(archive);
+    archive.write("frugal.meta", text_tensor(meta_json));
+    archive.save_to(path);
+  }
+  void load(torch::serialize::InputArchive& archive) {
+    net_->load(archive);
+    if (channels_last_) to_channels_last(*net_, dims_);
+  }
+
+ private:
+  static torch::Tensor text_tensor(const std::string& text) {
+    return torch::from_blob(const_cast<char*>(text.data()), {static_cast<std::int64_t>(text.size())}, torch::kUInt8)
+        .clone();
+  }
+  UNet net_;
+  int dims_;
+  bool channels_last_;
+};
+
+}  // namespace
+
+std::unique_ptr<Network> make_unet_network(int dims, int width, int depth, Normalization normalization,
+                                           bool channels_last) {
+  return std::make_unique<UNetNetwork>(dims, width, depth, normalization, channels_last);
+}
+
+std::unique_ptr<Network> load_unet_network(torch::serialize::InputArchive& archive, int dims, int width, int depth,
+                                           Normalization normalization, bool channels_last) {
+  auto network = std::make_unique<UNetNetwork>(dims, width, depth, normalization, channels_last);
+  network->load(archive);
+  return network;
 }
 
 }  // namespace frugal::learn::internal

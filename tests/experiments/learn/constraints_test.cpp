@@ -64,20 +64,40 @@ TEST(GradeFractionInterval, FollowsTheRatersBins) {
   EXPECT_THROW(grade_fraction_interval(-1, grading), UserError);
 }
 
-TEST(TrainOptions, ValidateNamesTheKey) {
+// Each bad value is reported under its own key (common practice, no source).
+template <class Change>
+std::string message_after(Change change) {
   TrainOptions options;
-  EXPECT_EQ(options.validate(), "");
-  options.epochs = 0;
-  EXPECT_NE(options.validate().find("train.epochs"), std::string::npos);
-  options = TrainOptions{};
-  options.validation_fraction = 0.95;
-  EXPECT_NE(options.validate().find("train.validation_fraction"), std::string::npos);
+  change(options);
+  return options.validate();
+}
+
+TEST(TrainOptions, ValidateNamesTheKey) {
+  EXPECT_EQ(message_after([](TrainOptions&) {}), "");
+  EXPECT_NE(message_after([](TrainOptions& o) { o.epochs = 0; }).find("train.epochs"), std::string::npos);
+  EXPECT_NE(message_after([](TrainOptions& o) { o.validation_fraction = 0.95; }).find("train.validation_fraction"),
+            std::string::npos);
+  EXPECT_NE(message_after([](TrainOptions& o) { o.gce_q = 0.0; }).find("train.gce_q"), std::string::npos);
+  EXPECT_NE(message_after([](TrainOptions& o) { o.label_smoothing = 0.5; }).find("train.label_smoothing"),
+            std::string::npos);
+  EXPECT_NE(message_after([](TrainOptions& o) { o.object_size_min_mm3 = 50.0; }).find("train.object_size_min_mm3"),
+            std::string::npos);
+  EXPECT_NE(message_after([](TrainOptions& o) { o.consistency_weight = -1.0; }).find("train.consistency_weight"),
+            std::string::npos);
+  EXPECT_NE(message_after([](TrainOptions& o) { o.augmentation.rotation_degrees = 90.0; })
+                .find("train.augmentation.rotation_degrees"),
+            std::string::npos);
   EXPECT_THROW(strategy_from_string("density"), UserError);
   EXPECT_EQ(strategy_from_string("grade-bounds"), Strategy::grade_bounds);
   EXPECT_EQ(to_string(Strategy::count_map), "count-map");
+  for (const char* name : {"mask", "mask-robust", "partial", "partial-naive", "count-map", "grade-bounds", "presence-mil",
+                           "points", "scalar", "mixed", "threshold", "line-filter"})
+    EXPECT_EQ(to_string(strategy_from_string(name)), name);
+  EXPECT_EQ(robust_loss_from_string("bootstrap"), RobustLoss::bootstrapping);
+  EXPECT_THROW(robust_loss_from_string("mae"), UserError);
 }
 
-TEST(TrainingSet, RejectsMixedShapesAndKinds) {
+TEST(TrainingSet, RejectsMixedShapesAndUnusableKinds) {
   Geometry geometry;
   geometry.shape = Shape{8, 8, 1};
   TrainingSet set;
@@ -87,14 +107,22 @@ TEST(TrainingSet, RejectsMixedShapesAndKinds) {
   Geometry other = geometry;
   other.shape.x = 16;
   EXPECT_THROW(set.add(FloatImage(other), count), UserError);
-  Label grade;
-  grade.kind = LabelKind::grade;
-  EXPECT_THROW(set.add(FloatImage(geometry), grade), UserError);
+  EXPECT_THROW(set.add_unlabelled(FloatImage(other)), UserError);
   EXPECT_THROW(set.add(FloatImage(), count), UserError);
   // A strategy that cannot use the labels is refused before any training.
   set.add(FloatImage(geometry), count);
   TrainOptions options;
   options.strategy = Strategy::mask;
+  EXPECT_THROW(train(set, options), UserError);
+  // Two kinds are only for mixed, and mixed needs outlines as one of them.
+  Label grade;
+  grade.kind = LabelKind::grade;
+  set.add(FloatImage(geometry), grade);
+  EXPECT_THROW(set.kind(), UserError);
+  EXPECT_EQ(set.kinds().size(), 2U);
+  options.strategy = Strategy::count_map;
+  EXPECT_THROW(train(set, options), UserError);
+  options.strategy = Strategy::mixed;
   EXPECT_THROW(train(set, options), UserError);
 }
 
