@@ -18,9 +18,15 @@ function(frugal_add_library part)
   frugal_set_warnings(frugal_${part})
 endfunction()
 
-# frugal_add_test(<name> <source> DEPENDS ...): a GoogleTest executable registered with CTest.
+# frugal_add_test(<name> <source> [PROCESSORS n] DEPENDS ...): a GoogleTest executable registered
+# with CTest. Tests that train with torch's two threads declare PROCESSORS 2, so that
+# `ctest --parallel 2` runs them alone: oversubscribed OpenMP threads spin and slow training
+# several-fold.
 function(frugal_add_test name source)
-  cmake_parse_arguments(ARG "" "" "DEPENDS" ${ARGN})
+  cmake_parse_arguments(ARG "" "PROCESSORS" "DEPENDS" ${ARGN})
+  if(NOT ARG_PROCESSORS)
+    set(ARG_PROCESSORS 1)
+  endif()
   add_executable(${name} ${source})
   target_link_libraries(${name} PRIVATE ${ARG_DEPENDS} GTest::gtest GTest::gtest_main)
   target_compile_definitions(${name} PRIVATE
@@ -31,7 +37,8 @@ function(frugal_add_test name source)
   # other build trees never share temporary file names.
   set(scratch "${CMAKE_BINARY_DIR}/test-scratch/${name}")
   file(MAKE_DIRECTORY "${scratch}")
-  gtest_discover_tests(${name} DISCOVERY_TIMEOUT 60 PROPERTIES TIMEOUT 600 ENVIRONMENT "TEST_TMPDIR=${scratch}")
+  gtest_discover_tests(${name} DISCOVERY_TIMEOUT 60
+                       PROPERTIES TIMEOUT 600 PROCESSORS ${ARG_PROCESSORS} ENVIRONMENT "TEST_TMPDIR=${scratch}")
 endfunction()
 
 # frugal_add_python_test(<name> <script> [args...]): a reference check written against the

@@ -52,7 +52,7 @@ std::string describe(const c10::IValue& value) {
 
 class ScriptedNetwork : public Network {
  public:
-  ScriptedNetwork(torch::jit::Module module, std::string path) : module_(std::move(module)), path_(std::move(path)) {}
+  ScriptedNetwork(const torch::jit::Module& module, std::string path) : module_(module), path_(std::move(path)) {}
 
   NetworkOutput forward(const torch::Tensor& input) override {
     c10::IValue output;
@@ -90,14 +90,15 @@ class ScriptedNetwork : public Network {
     for (const auto& [name, tensor] : state) by_name.emplace(name, &tensor);
     torch::NoGradGuard no_grad;
     std::size_t restored = 0;
-    const auto restore_one = [&](const std::string& name, torch::Tensor target) {
+    const auto restore_one = [&](const std::string& name, const torch::Tensor& target) {
       const auto found = by_name.find(name);
       FRUGAL_CHECK(found != by_name.end());
       FRUGAL_CHECK(found->second->sizes() == target.sizes());
       target.copy_(*found->second);
       ++restored;
     };
-    for (const auto& parameter : module_.named_parameters(/*recurse=*/true)) restore_one(parameter.name, parameter.value);
+    for (const auto& parameter : module_.named_parameters(/*recurse=*/true))
+      restore_one(parameter.name, parameter.value);
     for (const auto& buffer : module_.named_buffers(/*recurse=*/true)) restore_one(buffer.name, buffer.value);
     FRUGAL_CHECK(restored == state.size());
   }
@@ -106,24 +107,18 @@ class ScriptedNetwork : public Network {
   bool has_scalar_head() const override { return false; }
   bool set_map_bias(double /*value*/) override { return false; }
 
+  // Write errors stay c10::Error: the caller removes its partial file and names the final path.
   void save(const std::string& path, const std::string& meta_json) override {
-    torch::jit::ExtraFilesMap extra_files{{kScriptedMetaFile, meta_json}};
-    try {
-      module_.save(path, extra_files);
-    } catch (const c10::Error& error) {
-      throw UserError(path + ": cannot write the TorchScript network: " + error.what_without_backtrace());
-    } catch (const std::exception& error) {
-      throw UserError(path + ": cannot write the TorchScript network: " + error.what());
-    }
+    module_.save(path, torch::jit::ExtraFilesMap{{kScriptedMetaFile, meta_json}});
   }
 
   // The module's output for `input`, checked: one floating tensor of the input's shape, as float32.
   torch::Tensor map_of(const c10::IValue& output, const torch::Tensor& input) const {
     if (!output.isTensor())
-      throw UserError(path_ + ": the TorchScript module returned " + describe(output) +
-                      " for an input of shape " + sizes_text(input.sizes()) +
+      throw UserError(path_ + ": the TorchScript module returned " + describe(output) + " for an input of shape " +
+                      sizes_text(input.sizes()) +
                       "; frugal needs one tensor of the input's shape (the raw map, before any sigmoid)");
-    torch::Tensor map = output.toTensor();
+    const torch::Tensor& map = output.toTensor();
     if (map.sizes() != input.sizes())
       throw UserError(path_ + ": the TorchScript module maps an input of shape " + sizes_text(input.sizes()) +
                       " to an output of shape " + sizes_text(map.sizes()) +

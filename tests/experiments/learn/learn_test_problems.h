@@ -2,11 +2,14 @@
 // Small fixed problems for the learning tests: phantoms drawn by generate_subject, labels bought
 // from a careful rater through make_label. Truth is used only to score predictions.
 
+#include <cmath>
 #include <cstdint>
+#include <numeric>
 #include <vector>
 
 #include "corruptors/labeler.h"
 #include "experiments/learn/learner.h"
+#include "experiments/measure/connected_components.h"
 #include "phantoms/phantom.h"
 #include "phantoms/scenario.h"
 
@@ -65,6 +68,86 @@ inline std::vector<FloatImage> images_of(const std::vector<Subject>& subjects) {
   std::vector<FloatImage> images;
   for (const Subject& subject : subjects) images.push_back(subject.image);
   return images;
+}
+
+constexpr std::uint64_t kSeed = 20240611;
+
+// The strategy-versus-baseline tests are timed on an idle two-core machine (2 torch threads).
+constexpr int kTrainSubjects = 256;
+constexpr int kTestSubjects = 96;
+constexpr int kSide = 48;  // 2D 48 x 48 phantoms: small enough for the suite's time budget
+
+inline TrainOptions quick_options(Strategy strategy) {
+  TrainOptions options;
+  options.strategy = strategy;
+  options.epochs = 25;
+  options.batch_size = 16;
+  options.seed = kSeed;
+  options.threads = 2;
+  options.validation_fraction = 0.15;
+  options.patience = 6;
+  return options;
+}
+
+// The counting problem: streaks only, 6-12 mm long, 1.5-2.5 mm wide, contrast 0.6-1.0, noise
+// sigma 0.02, and none of the confounding dots and lines. At 48 x 48 voxels of 1 mm a default
+// 3 mm streak and a 3 mm dot differ by a voxel or two, so with the confounders in, 30 epochs
+// reached only MAE ratios of 0.54 (scalar) and 0.57 (count-map) against the 0.6 margin (and
+// 0.84-0.87 with the default streaks); these tests check that each strategy learns from its
+// labels, not that it separates look-alikes at the limit of resolution.
+inline ScenarioOptions counting_scenario() {
+  ScenarioOptions scenario = small_scenario(Family::streaks, kSide);
+  scenario.streaks.length_mm = Distribution::uniform_between(6.0, 12.0);
+  scenario.streaks.width_mm = Distribution::uniform_between(1.5, 2.5);
+  scenario.streaks.contrast = Distribution::uniform_between(0.6, 1.0);
+  scenario.streaks.dots = CountDistribution{CountDistribution::Kind::fixed, 0.0, 2.0, 0, 0, 0};
+  scenario.streaks.lines = scenario.streaks.dots;
+  scenario.noise.sigma = 0.02;
+  return scenario;
+}
+
+inline double mean_of(const std::vector<double>& values) {
+  return std::accumulate(values.begin(), values.end(), 0.0) / static_cast<double>(values.size());
+}
+
+inline double mean_absolute_error(const std::vector<double>& predicted, const std::vector<double>& truth) {
+  double sum = 0.0;
+  for (std::size_t i = 0; i < truth.size(); ++i) sum += std::abs(predicted[i] - truth[i]);
+  return sum / static_cast<double>(truth.size());
+}
+
+// Dice of map > 0.5 against the true lesion voxels, pooled over every test subject.
+inline double pooled_dice(const std::vector<Prediction>& predictions, const std::vector<Subject>& subjects) {
+  double overlap = 0.0, marked_voxels = 0.0, lesion_voxels = 0.0;
+  for (std::size_t i = 0; i < subjects.size(); ++i) {
+    const LabelImage& truth = subjects[i].labels;
+    for (std::size_t v = 0; v < truth.size(); ++v) {
+      const bool lesion = truth.data()[v] == kLesion;
+      const bool marked = predictions[i].map.data()[v] > 0.5F;
+      overlap += lesion && marked ? 1.0 : 0.0;
+      marked_voxels += marked ? 1.0 : 0.0;
+      lesion_voxels += lesion ? 1.0 : 0.0;
+    }
+  }
+  return 2.0 * overlap / (marked_voxels + lesion_voxels);
+}
+
+// Share of true lesions (connected components of the lesion code) that the map marks (> 0.5)
+// on at least one of their voxels.
+inline double lesion_recall(const std::vector<Prediction>& predictions, const std::vector<Subject>& subjects) {
+  double found = 0.0, lesions = 0.0;
+  for (std::size_t i = 0; i < subjects.size(); ++i) {
+    LabelImage lesion_mask(subjects[i].labels.geometry(), 0);
+    for (std::size_t v = 0; v < lesion_mask.size(); ++v) lesion_mask.data()[v] = subjects[i].labels.data()[v] == kLesion;
+    const auto components = measure::label_components(lesion_mask);
+    std::vector<bool> hit(static_cast<std::size_t>(components.count) + 1, false);
+    for (std::size_t v = 0; v < lesion_mask.size(); ++v)
+      if (components.labels.data()[v] > 0 && predictions[i].map.data()[v] > 0.5F)
+        hit[static_cast<std::size_t>(components.labels.data()[v])] = true;
+    lesions += components.count;
+    for (int c = 1; c <= components.count; ++c) found += hit[static_cast<std::size_t>(c)] ? 1.0 : 0.0;
+  }
+  return found / lesions;
 }
 
 }  // namespace frugal::learn::testing
