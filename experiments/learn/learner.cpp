@@ -318,8 +318,10 @@ TrainResult train(const TrainingSet& set, const TrainOptions& options) {
   std::shared_ptr<Network> network = make_network(*model);
   // Start each map at the training labels' average, so the first steps do not fight a far-off
   // offset: count-map at a density summing to the mean count, grade-bounds at the mean
-  // interval midpoint.
+  // interval midpoint, points at the mean marked fraction its size prior expects (at 0.5
+  // everywhere the size penalty is thousands of times the other terms and collapses the map).
   const double voxel_count = static_cast<double>(model->shape.voxel_count());
+  const auto logit = [](double p) { return std::log(p / (1.0 - p)); };
   if (options.strategy == Strategy::count_map) {
     const double density = std::max(1e-3, target_mean) / voxel_count;
     network->set_map_bias(std::log(std::expm1(density)));
@@ -327,7 +329,14 @@ TrainResult train(const TrainingSet& set, const TrainOptions& options) {
     double midpoint = 0.0;
     for (std::size_t i : training) midpoint += 0.5 * (samples[i].lower + samples[i].upper);
     midpoint = std::clamp(midpoint / static_cast<double>(training.size()), 1e-3, 1.0 - 1e-3);
-    network->set_map_bias(std::log(midpoint / (1.0 - midpoint)));
+    network->set_map_bias(logit(midpoint));
+  } else if (options.strategy == Strategy::points) {
+    double clicks = 0.0;
+    for (std::size_t i : training) clicks += samples[i].value;
+    const double typical_mm3 = 0.5 * (options.object_size_min_mm3 + options.object_size_max_mm3);
+    const double fraction = clicks / static_cast<double>(training.size()) * typical_mm3 /
+                            (model->voxel_volume_mm3 * voxel_count);
+    network->set_map_bias(logit(std::clamp(fraction, 1e-3, 0.5)));
   }
   torch::optim::Adam optimizer(network->parameters(),
                                torch::optim::AdamOptions(options.learning_rate).weight_decay(options.weight_decay));

@@ -143,10 +143,14 @@ TEST(PresenceMil, DetectsLesionsFromPresenceFlags) {
   EXPECT_GE(recall, 0.3);
 }
 
-// points from clicks: counts read from the map's components reach MAE <= 0.6 x the MAE of
-// predicting the training clicks' mean count (the margin of the counting strategies,
-// learner_test.cpp), and the map localises lesions (recall >= 0.7).
-TEST(Points, CountsAndLocalisesFromClicks) {
+// points from clicks. Clicks say where lesions are, not how far they reach, so the map is the
+// product: lesion-wise recall >= 0.7 and pooled Dice >= 0.4 against the true masks, where the
+// trivial baselines (marking nothing, or the same number of voxels at random, about 2 % of the
+// image) score 0 and about 0.02 (common practice, no source). Counts read from the map's
+// components must at least not lose to predicting the training clicks' mean count; at 48 x 48
+// neighbouring lesions' blobs merge and jittered clicks that miss their lesion grow blobs of their
+// own, so counting is left to count-map (docs/learning.md).
+TEST(Points, LocalisesLesionsFromClicks) {
   const Problem problem = draw_problem(counting_scenario());
   const auto labels = buy_labels(problem.train, LabelKind::points, careful_rater(), kSeed);
   const auto predictions = train_and_predict(problem, labels, quick_options(Strategy::points));
@@ -159,10 +163,13 @@ TEST(Points, CountsAndLocalisesFromClicks) {
   const double model_mae = mean_absolute_error(predicted, truth);
   const double baseline_mae = mean_absolute_error(std::vector<double>(truth.size(), mean_of(clicks)), truth);
   const double recall = lesion_recall(predictions, problem.test);
-  std::printf("points: count MAE %.3f, mean-prediction MAE %.3f, lesion recall %.3f, pooled Dice %.3f\n", model_mae,
-              baseline_mae, recall, pooled_dice(predictions, problem.test));
-  EXPECT_LE(model_mae, 0.6 * baseline_mae);
+  const double dice = pooled_dice(predictions, problem.test);
+  std::printf("points: lesion recall %.3f, pooled Dice %.3f; count MAE %.3f (mean %.2f, true mean %.2f), "
+              "mean-prediction MAE %.3f\n",
+              recall, dice, model_mae, mean_of(predicted), mean_of(truth), baseline_mae);
   EXPECT_GE(recall, 0.7);
+  EXPECT_GE(dice, 0.4);
+  EXPECT_LE(model_mae, baseline_mae);
 }
 
 // mixed: 24 outlines plus 232 grades on one network against mask on the 24 outlines alone;
