@@ -12,5 +12,8 @@ void add_phantoms_command(CLI::App& app);
 void add_agree_command(CLI::App& app);
 void add_labels_command(CLI::App& app);
 void add_calibrate_command(CLI::App& app);
+void add_train_command(CLI::App& app);
+void add_predict_command(CLI::App& app);
+void add_score_command(CLI::App& app);
 
 }  // namespace frugal::cli

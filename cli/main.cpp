@@ -20,6 +20,9 @@ int main(int argc, char** argv) {
   frugal::cli::add_labels_command(app);
   frugal::cli::add_agree_command(app);
   frugal::cli::add_calibrate_command(app);
+  frugal::cli::add_train_command(app);
+  frugal::cli::add_predict_command(app);
+  frugal::cli::add_score_command(app);
   try {
     app.parse(argc, argv);
   } catch (const CLI::ParseError& error) {

@@ -56,9 +56,10 @@ std::string predictions_csv_header() {
 }
 
 std::string predictions_csv_row(const PredictionRow& row) {
-  return index_or_na(row.subject) + "," + index_or_na(row.rescan) + "," + csv_field(row.image) + "," + number(row.count) +
-         "," + number(row.affected_fraction) + "," + number(row.presence_probability) + "," + number(row.grade) + "," +
-         number(row.burden_mm3) + "," + (row.map.empty() ? std::string("NA") : csv_field(row.map)) + "," +
+  return index_or_na(row.subject) + "," + index_or_na(row.rescan) + "," + csv_field(row.image) + "," +
+         number(row.count) + "," + number(row.affected_fraction) + "," + number(row.presence_probability) + "," +
+         number(row.grade) + "," + number(row.burden_mm3) + "," +
+         (row.map.empty() ? std::string("NA") : csv_field(row.map)) + "," +
          to_string(row.map.empty() ? MapKind::none : row.map_kind) + "\n";
 }
 
@@ -67,7 +68,9 @@ std::string PredictionsTable::map_path(const PredictionRow& row) const {
   return path.is_absolute() ? path.string() : (fs::path(folder) / path).string();
 }
 
-std::string PredictionsTable::where(const PredictionRow& row) const { return source + " line " + std::to_string(row.line); }
+std::string PredictionsTable::where(const PredictionRow& row) const {
+  return source + " line " + std::to_string(row.line);
+}
 
 PredictionsTable read_predictions_table(const std::string& path) {
   const CsvTable table = read_csv_table(path);
@@ -132,8 +135,9 @@ PredictionsTable read_predictions_table(const std::string& path) {
           throw UserError(table.where(r, map_kind) + ": " + error.what());
         }
         if (row.map_kind == MapKind::none)
-          throw UserError(table.where(r, map_kind) + ": the row gives a map file but map kind NA; allowed: probability, "
-                                                     "density or response");
+          throw UserError(table.where(r, map_kind) +
+                          ": the row gives a map file but map kind NA; allowed: probability, "
+                          "density or response");
       }
     }
     const auto key = std::make_pair(row.subject, row.rescan);

@@ -32,7 +32,7 @@ struct PredictionRow {
   double burden_mm3 = kMissing;
   std::string map;  // path as written in the table; empty when there is none
   MapKind map_kind = MapKind::none;
-  int line = 0;     // line in the file it was read from
+  int line = 0;  // line in the file it was read from
 };
 
 // The header frugal writes, in schema order, with a line break.

@@ -1,7 +1,6 @@
 #include "experiments/scoring/scoring.h"
 
 #include <Eigen/Core>
-
 #include <cmath>
 #include <cstdio>
 #include <functional>
@@ -232,15 +231,16 @@ ScoreReport score_predictions(const PredictionsTable& predictions, const Phantom
   for (const PredictionRow& row : predictions.rows) {
     const TruthRow* match = truth.find(row.subject, row.rescan);
     if (match == nullptr)
-      throw UserError(predictions.where(row) + ": subject " + std::to_string(row.subject) + ", rescan " +
-                      std::to_string(row.rescan) + " is not in " + truth.truth_file() +
-                      "; allowed: subjects of that phantom set (score each table against the set its images come from)");
+      throw UserError(
+          predictions.where(row) + ": subject " + std::to_string(row.subject) + ", rescan " +
+          std::to_string(row.rescan) + " is not in " + truth.truth_file() +
+          "; allowed: subjects of that phantom set (score each table against the set its images come from)");
     truth_rows.push_back(match);
   }
 
   // One quantity: the rows that give a value, paired with their truth.
-  const auto quantity = [&](const std::string& name, const std::string& truth_name,
-                            double PredictionRow::*field, const std::function<double(const TruthRow&)>& truth_of) {
+  const auto quantity = [&](const std::string& name, const std::string& truth_name, double PredictionRow::*field,
+                            const std::function<double(const TruthRow&)>& truth_of) {
     std::vector<double> predicted, actual;
     for (std::size_t r = 0; r < predictions.rows.size(); ++r) {
       const double value = predictions.rows[r].*field;
@@ -265,9 +265,11 @@ ScoreReport score_predictions(const PredictionsTable& predictions, const Phantom
   if (predictions.has_grade) {
     std::string edges;
     for (double edge : options.grading.bin_edges) edges += (edges.empty() ? "" : ", ") + text(edge);
-    QuantityScore score = quantity(
-        "grade", "bin of truth.csv affected_fraction, upper bin edges [" + edges + "]", &PredictionRow::grade,
-        [&](const TruthRow& t) { return static_cast<double>(grade_of_fraction(t.affected_fraction, options.grading)); });
+    QuantityScore score =
+        quantity("grade", "bin of truth.csv affected_fraction, upper bin edges [" + edges + "]", &PredictionRow::grade,
+                 [&](const TruthRow& t) {
+                   return static_cast<double>(grade_of_fraction(t.affected_fraction, options.grading));
+                 });
     std::vector<double> predicted, actual, categories;
     bool whole = true;
     for (std::size_t r = 0; r < predictions.rows.size(); ++r) {
@@ -309,7 +311,8 @@ ScoreReport score_predictions(const PredictionsTable& predictions, const Phantom
     presence.n = static_cast<int>(scores.size());
     presence.accuracy = presence.n > 0 ? static_cast<double>(correct) / presence.n : kNaN;
     presence.auc = roc_auc(scores, present);
-    if (presence.n == 0) presence.notes.push_back("no row gives a presence probability");
+    if (presence.n == 0)
+      presence.notes.push_back("no row gives a presence probability");
     else if (std::isnan(presence.auc))
       presence.notes.push_back("AUC: needs images with and without lesions; all " + std::to_string(presence.n) +
                                (presence.present == 0 ? " have none" : " have lesions"));
@@ -383,8 +386,9 @@ nlohmann::json to_json(const ScoreReport& report) {
                    {"lesion_f1", number_or_null(m.f1)},
                    {"notes", m.notes}};
   }
-  out["caution"] = "Scores on synthetic phantoms: they guide the choice of a labelling plan and a method; they do not "
-                   "validate a method for clinical use or replace a pilot on real data.";
+  out["caution"] =
+      "Scores on synthetic phantoms: they guide the choice of a labelling plan and a method; they do not "
+      "validate a method for clinical use or replace a pilot on real data.";
   return out;
 }
 

@@ -5,11 +5,10 @@
 // statistic comes from the measure part (ICC, Bland-Altman, correlation, Dice, detection
 // matching); this part only pairs rows with truth and pools the results.
 
+#include <nlohmann/json.hpp>
 #include <optional>
 #include <string>
 #include <vector>
-
-#include <nlohmann/json.hpp>
 
 #include "corruptors/phantom_set_reader.h"
 #include "corruptors/rater.h"
@@ -19,29 +18,29 @@
 namespace frugal::scoring {
 
 struct ScoreOptions {
-  GradingOptions grading;             // bins that turn the true affected fraction into the true grade
-  double presence_threshold = 0.5;    // accuracy: a probability above it reads as "present"
-  double map_threshold = 0.5;         // probability maps: voxels above it are lesion
+  GradingOptions grading;                       // bins that turn the true affected fraction into the true grade
+  double presence_threshold = 0.5;              // accuracy: a probability above it reads as "present"
+  double map_threshold = 0.5;                   // probability maps: voxels above it are lesion
   measure::DetectionMatchingOptions detection;  // lesion-wise matching (IoU >= 0.1, full connectivity)
-  double confidence = 0.95;           // level of the ICC interval (Bland-Altman limits stay at 1.96 SD)
-  std::string validate() const;       // empty, or "<key> = <value>: <what is allowed>"
+  double confidence = 0.95;                     // level of the ICC interval (Bland-Altman limits stay at 1.96 SD)
+  std::string validate() const;                 // empty, or "<key> = <value>: <what is allowed>"
 };
 
 // Agreement of one predicted quantity with its truth over the rows that give a value for it.
 // NaN marks a statistic the data cannot give (too few rows, a constant column); `notes` says why.
 struct QuantityScore {
-  std::string quantity;     // "count", "affected_fraction", "burden_mm3" or "grade"
-  std::string truth;        // what it was compared with, e.g. "truth.csv count"
+  std::string quantity;  // "count", "affected_fraction", "burden_mm3" or "grade"
+  std::string truth;     // what it was compared with, e.g. "truth.csv count"
   int n = 0;
   double mean_truth = 0.0;
   double mean_predicted = 0.0;
-  double mae = 0.0;         // mean |predicted - truth|
-  double bias = 0.0;        // mean (predicted - truth)
-  double rmse = 0.0;        // sqrt(mean (predicted - truth)^2)
+  double mae = 0.0;   // mean |predicted - truth|
+  double bias = 0.0;  // mean (predicted - truth)
+  double rmse = 0.0;  // sqrt(mean (predicted - truth)^2)
   double pearson = 0.0;
   double spearman = 0.0;
-  double icc = 0.0;         // ICC(A,1): two-way random, absolute agreement, single measurement
-  double icc_lower = 0.0;   // its interval at ScoreOptions::confidence (F distribution)
+  double icc = 0.0;        // ICC(A,1): two-way random, absolute agreement, single measurement
+  double icc_lower = 0.0;  // its interval at ScoreOptions::confidence (F distribution)
   double icc_upper = 0.0;
   double limits_lower = 0.0;  // Bland-Altman limits of agreement, bias -/+ 1.96 SD of the differences
   double limits_upper = 0.0;
@@ -58,8 +57,8 @@ struct PresenceScore {
 };
 
 struct MapScore {
-  int images = 0;          // rows with a probability map, all scored
-  int not_thresholded = 0; // rows with a density or response map (not scored for overlap)
+  int images = 0;            // rows with a probability map, all scored
+  int not_thresholded = 0;   // rows with a density or response map (not scored for overlap)
   double pooled_dice = 0.0;  // 2 sum|T and P| / (sum|T| + sum|P|) over every image (Dice 1945)
   double mean_dice = 0.0;    // mean of the per-image Dice (both empty counts as 1)
   int truth_lesions = 0;

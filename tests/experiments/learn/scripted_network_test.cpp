@@ -74,6 +74,7 @@ TrainOptions scripted_options(const std::string& network_file) {
   options.patience = 0;
   options.seed = kSeed;
   options.threads = 2;
+  options.bfloat16 = false;  // float32 throughout, so that PyTorch in Python reproduces the map to 1e-5
   return options;
 }
 

@@ -1,0 +1,156 @@
+// frugal score: a predictions table (from frugal predict, or from any method that writes the
+// documented columns) scored against a phantom set's exact truth.
+
+#include <CLI/CLI.hpp>
+#include <cmath>
+#include <cstdio>
+#include <memory>
+#include <nlohmann/json.hpp>
+#include <string>
+
+#include "cli/commands.h"
+#include "corruptors/phantom_set_reader.h"
+#include "corruptors/rater_yaml.h"
+#include "experiments/scoring/predictions_table.h"
+#include "experiments/scoring/scoring.h"
+#include "phantoms/user_error.h"
+#include "phantoms/whole_file.h"
+
+namespace frugal::cli {
+namespace {
+
+struct ScoreArguments {
+  std::string predictions;
+  std::string phantoms;
+  std::string json_file;
+  std::string rater_file;
+  scoring::ScoreOptions options;
+};
+
+// Four significant digits: counts, fractions and mm^3 burdens share one table.
+std::string cell(double value) {
+  if (std::isnan(value)) return "n/a";
+  char buffer[32];
+  std::snprintf(buffer, sizeof buffer, "%.4g", value);
+  return buffer;
+}
+
+std::string padded(const std::string& text, std::size_t width, bool right = true) {
+  if (text.size() >= width) return text;
+  const std::string fill(width - text.size(), ' ');
+  return right ? fill + text : text + fill;
+}
+
+// Three decimals for coefficients in [-1, 1].
+std::string coefficient(double value) {
+  if (std::isnan(value)) return "n/a";
+  if (std::fabs(value) < 0.0005) value = 0.0;  // no "-0.000" for a rounding-level negative
+  char buffer[32];
+  std::snprintf(buffer, sizeof buffer, "%.3f", value);
+  return buffer;
+}
+
+std::string format_report(const scoring::ScoreReport& report) {
+  std::string out = "scored " + std::to_string(report.prediction_rows) + " rows of " + report.predictions_file +
+                    " against the truth of " + report.phantom_set + " (" + std::to_string(report.truth_rows) +
+                    " rows)\n";
+  if (!report.ignored_columns.empty()) {
+    std::string names;
+    for (const std::string& name : report.ignored_columns) names += (names.empty() ? "" : ", ") + name;
+    out += "ignored columns the format does not know: " + names + "\n";
+  }
+  std::string notes, empty;
+  std::string table;
+  for (const scoring::QuantityScore& q : report.quantities) {
+    if (q.n == 0) {  // a column of NA only: the method does not answer this quantity
+      empty += (empty.empty() ? "" : ", ") + q.quantity;
+      continue;
+    }
+    table += padded(q.quantity, 18, false) + padded(std::to_string(q.n), 6) + padded(cell(q.mae), 10) +
+             padded(cell(q.bias), 10) + padded(cell(q.rmse), 10) + padded(coefficient(q.pearson), 9) +
+             padded(coefficient(q.spearman), 9) + "  " +
+             padded(coefficient(q.icc) + " [" + coefficient(q.icc_lower) + ", " + coefficient(q.icc_upper) + "]", 23,
+                    false) +
+             "[" + cell(q.limits_lower) + ", " + cell(q.limits_upper) + "]\n";
+    for (const std::string& note : q.notes) notes += "  " + q.quantity + ": " + note + "\n";
+    if (q.quantity == "grade")
+      notes +=
+          "  grade: true grade = " + q.truth + "; quadratic-weighted kappa " + coefficient(q.weighted_kappa) + "\n";
+  }
+  if (!table.empty())
+    out += "\n" + padded("quantity", 18, false) + padded("n", 6) + padded("MAE", 10) + padded("bias", 10) +
+           padded("RMSE", 10) + padded("Pearson", 9) + padded("Spearman", 9) + "  " +
+           padded("ICC(A,1) [95% CI]", 23, false) + "Bland-Altman 95% limits\n" + table;
+  if (!empty.empty()) out += "no row gives a value for: " + empty + "\n";
+  if (report.presence && report.presence->n > 0) {
+    const scoring::PresenceScore& p = *report.presence;
+    out += "\npresence: AUC " + coefficient(p.auc) + ", accuracy " + coefficient(p.accuracy) + " at probability > " +
+           cell(report.options.presence_threshold) + " (" + std::to_string(p.n) + " images, " +
+           std::to_string(p.present) + " with lesions)\n";
+    for (const std::string& note : p.notes) notes += "  presence: " + note + "\n";
+  }
+  if (report.maps) {
+    const scoring::MapScore& m = *report.maps;
+    if (m.images > 0) {
+      out += "maps (map > " + cell(report.options.map_threshold) + " vs truth lesions, " + std::to_string(m.images) +
+             " images): Dice " + coefficient(m.pooled_dice) + " pooled, " + coefficient(m.mean_dice) +
+             " mean per image\n";
+      out += "lesions: recall " + coefficient(m.recall) + ", precision " + coefficient(m.precision) + ", F1 " +
+             coefficient(m.f1) + " (" + std::to_string(m.true_positives) + " of " + std::to_string(m.truth_lesions) +
+             " found, " + std::to_string(m.false_positives) +
+             " false; match at IoU >= " + cell(report.options.detection.minimum_iou) + ")\n";
+    } else if (m.not_thresholded > 0) {
+      out += "maps: " + std::to_string(m.not_thresholded) +
+             " density or response maps, not scored for overlap (Dice and lesion matching need probability maps)\n";
+    }
+    if (m.images > 0)
+      for (const std::string& note : m.notes) notes += "  maps: " + note + "\n";
+  }
+  if (!notes.empty()) out += "\nnotes:\n" + notes;
+  out += "\nScores on synthetic phantoms; they do not validate a method for clinical use.\n";
+  return out;
+}
+
+void run_score(ScoreArguments& arguments) {
+  if (!arguments.rater_file.empty()) arguments.options.grading = read_rater_file(arguments.rater_file).grading;
+  if (const std::string error = arguments.options.validate(); !error.empty()) throw UserError(error);
+  const scoring::PredictionsTable predictions = scoring::read_predictions_table(arguments.predictions);
+  const PhantomSetIndex truth = read_phantom_set(arguments.phantoms);
+  const scoring::ScoreReport report = scoring::score_predictions(predictions, truth, arguments.options);
+  if (!arguments.json_file.empty()) {
+    WholeFile file(arguments.json_file);
+    file.write(scoring::to_json(report).dump(2) + "\n");
+    file.commit();
+  }
+  std::fputs(format_report(report).c_str(), stdout);
+}
+
+}  // namespace
+
+void add_score_command(CLI::App& app) {
+  auto arguments = std::make_shared<ScoreArguments>();
+  scoring::ScoreOptions& o = arguments->options;
+  CLI::App* command = app.add_subcommand(
+      "score",
+      "Score a predictions table (frugal predict's, or your own method's in the same columns) against a phantom "
+      "set's exact truth: MAE, bias, RMSE, correlation, ICC and limits of agreement per quantity, presence AUC, "
+      "and Dice and lesion-wise detection for probability maps (docs/score.md).");
+  command->add_option("predictions", arguments->predictions, "Predictions table (predictions.csv)")->required();
+  command->add_option("--phantoms", arguments->phantoms, "Phantom set folder whose truth.csv the rows refer to")
+      ->required();
+  command->add_option("--json", arguments->json_file, "Also write every number to this JSON file");
+  command->add_option("--rater-file", arguments->rater_file,
+                      "Rater YAML whose grading bins define the true grade (default: frugal's default bins)");
+  command->add_option("--presence-threshold", o.presence_threshold, "Accuracy: probability above it reads as present")
+      ->capture_default_str();
+  command->add_option("--map-threshold", o.map_threshold, "Probability maps: voxels above it are lesion")
+      ->capture_default_str();
+  command
+      ->add_option("--minimum-iou", o.detection.minimum_iou,
+                   "Lesion-wise matching: smallest overlap (IoU) of a found lesion with a true one")
+      ->capture_default_str();
+  command->add_option("--confidence", o.confidence, "Level of the ICC interval")->capture_default_str();
+  command->callback([arguments] { run_score(*arguments); });
+}
+
+}  // namespace frugal::cli

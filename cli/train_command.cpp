@@ -1,0 +1,403 @@
+// frugal train: one learning strategy trained on a phantom set's images and the labels bought for
+// them (one or two label sets from `frugal labels`), written as a checkpoint plus a JSON sidecar
+// that says what was trained on what and what the labels cost.
+
+#include <CLI/CLI.hpp>
+#include <algorithm>
+#include <cmath>
+#include <cstdio>
+#include <filesystem>
+#include <map>
+#include <memory>
+#include <nlohmann/json.hpp>
+#include <set>
+#include <string>
+#include <utility>
+#include <vector>
+
+#include "cli/commands.h"
+#include "corruptors/label_set_reader.h"
+#include "corruptors/phantom_set_reader.h"
+#include "corruptors/rater_yaml.h"
+#include "experiments/learn/learner.h"
+#include "frugal_version.h"
+#include "phantoms/nifti_io.h"
+#include "phantoms/user_error.h"
+#include "phantoms/whole_file.h"
+
+namespace frugal::cli {
+namespace {
+
+using nlohmann::json;
+
+struct TrainArguments {
+  std::string phantoms;
+  std::vector<std::string> labels;
+  std::string strategy;
+  std::string out;
+  int rater = -1;
+  std::string normalization = "batch";
+  std::string robust_loss = "gce";
+  std::string rater_file;
+  bool bfloat16 = false;
+  bool full_precision = false;
+  bool no_flips = false;
+  learn::TrainOptions options;
+};
+
+learn::Normalization normalization_from_string(const std::string& name) {
+  for (const auto value : {learn::Normalization::batch, learn::Normalization::instance, learn::Normalization::none})
+    if (learn::to_string(value) == name) return value;
+  throw UserError("--normalization '" + name + "' is unknown; allowed: batch, instance, none");
+}
+
+json options_json(const learn::TrainOptions& o) {
+  return {{"strategy", learn::to_string(o.strategy)},
+          {"epochs", o.epochs},
+          {"batch_size", o.batch_size},
+          {"learning_rate", o.learning_rate},
+          {"weight_decay", o.weight_decay},
+          {"seed", o.seed},
+          {"threads", o.threads},
+          {"validation_fraction", o.validation_fraction},
+          {"patience", o.patience},
+          {"width", o.width},
+          {"depth", o.depth},
+          {"normalization", learn::to_string(o.normalization)},
+          {"channels_last", o.channels_last},
+          {"bfloat16", o.bfloat16},
+          {"augmentation",
+           {{"flips", o.augmentation.flips},
+            {"rotation_degrees", o.augmentation.rotation_degrees},
+            {"deformation_mm", o.augmentation.deformation_mm},
+            {"deformation_spacing_mm", o.augmentation.deformation_spacing_mm}}},
+          {"dice_weight", o.dice_weight},
+          {"robust_loss", learn::to_string(o.robust_loss)},
+          {"gce_q", o.gce_q},
+          {"bootstrap_beta", o.bootstrap_beta},
+          {"label_smoothing", o.label_smoothing},
+          {"background_prior", o.background_prior},
+          {"pooling_sharpness", o.pooling_sharpness},
+          {"point_radius_mm", o.point_radius_mm},
+          {"object_size_min_mm3", o.object_size_min_mm3},
+          {"object_size_max_mm3", o.object_size_max_mm3},
+          {"mask_weight", o.mask_weight},
+          {"weak_weight", o.weak_weight},
+          {"consistency_weight", o.consistency_weight},
+          {"threshold_hu", o.threshold_hu},
+          {"line_filter",
+           {{"sigmas_mm", o.line_filter.filter.sigmas_mm},
+            {"threshold", o.line_filter.threshold},
+            {"min_length_mm", o.line_filter.min_length_mm},
+            {"max_length_mm", o.line_filter.max_length_mm},
+            {"min_elongation", o.line_filter.min_elongation}}},
+          {"network_file", o.network_file},
+          {"grading_bin_edges", o.grading.bin_edges},
+          // JSON has no infinity: an open field bound is written as null.
+          {"field",
+           {{"low", std::isfinite(o.field.low) ? json(o.field.low) : json()},
+            {"high", std::isfinite(o.field.high) ? json(o.field.high) : json()},
+            {"drop_border_connected", o.field.drop_border_connected}}}};
+}
+
+// learn's messages name keys as a study file would ("train.batch_size = 0: ..."); on the command
+// line the user typed an option, so name that too: "--batch-size = 0: ... (train.batch_size)".
+std::string as_option_message(const std::string& message) {
+  if (message.rfind("train.", 0) != 0) return message;
+  const std::size_t end = message.find_first_of(" :,");
+  std::string key = message.substr(6, end == std::string::npos ? std::string::npos : end - 6);
+  if (key.rfind("line_filter.", 0) == 0) key = "line_" + key.substr(key.rfind('.') + 1);
+  for (const auto& [prefix, replacement] : {std::pair<std::string, std::string>{"augmentation.", ""},
+                                            {"field.", "field_"},
+                                            {"network_file", "network"},
+                                            {"drop_border_connected", "drop_border"}})
+    if (const std::size_t at = key.find(prefix); at != std::string::npos) key.replace(at, prefix.size(), replacement);
+  if (key.rfind("grading", 0) == 0) return message + " (grading bins come from --rater-file or the grade label set)";
+  std::replace(key.begin(), key.end(), '_', '-');
+  std::replace(key.begin(), key.end(), '.', '-');
+  return "--" + key + message.substr(end == std::string::npos ? message.size() : end) + " (" + message.substr(0, end) +
+         ")";
+}
+
+std::string hours(double value) {
+  char buffer[32];
+  std::snprintf(buffer, sizeof buffer, "%.2f", value);
+  return buffer;
+}
+
+void run_train(TrainArguments& arguments) {
+  learn::TrainOptions& options = arguments.options;
+  options.strategy = learn::strategy_from_string(arguments.strategy);
+  options.normalization = normalization_from_string(arguments.normalization);
+  options.robust_loss = learn::robust_loss_from_string(arguments.robust_loss);
+  if (arguments.bfloat16 && arguments.full_precision)
+    throw UserError("--bfloat16 and --full-precision contradict each other; give one");
+  if (arguments.bfloat16) options.bfloat16 = true;
+  if (arguments.full_precision) options.bfloat16 = false;
+  options.augmentation.flips = !arguments.no_flips;
+  if (arguments.rater < -1)
+    throw UserError("--rater " + std::to_string(arguments.rater) + ": allowed 0, 1, ... (a panel member)");
+
+  // Checked before any file is read, and again once the grading bins are known.
+  if (const std::string error = options.validate(); !error.empty()) throw UserError(as_option_message(error));
+  const bool classical = learn::is_classical(options.strategy);
+  if (arguments.labels.empty() && !classical)
+    throw UserError("--labels is required for strategy " + arguments.strategy +
+                    " (a label set folder written by frugal labels)");
+  if (arguments.labels.size() > 2)
+    throw UserError("--labels is given " + std::to_string(arguments.labels.size()) +
+                    " times; allowed: once, or twice for strategy mixed (outlines and one kind of weak label)");
+  if (arguments.labels.size() == 2 && options.strategy != learn::Strategy::mixed)
+    throw UserError(
+        "a second --labels is only for strategy mixed (outlines plus count, grade or presence labels); "
+        "strategy " +
+        arguments.strategy + " trains from one label set");
+
+  const PhantomSetIndex phantoms = read_phantom_set(arguments.phantoms);
+  std::vector<LabelSet> label_sets;
+  LabelSetReadOptions read_options;
+  read_options.rater = arguments.rater;
+  for (const std::string& folder : arguments.labels) {
+    label_sets.push_back(read_label_set(folder, read_options));
+    check_labels_in_phantom_set(label_sets.back(), phantoms);
+    if (label_sets.back().labels.empty())
+      throw UserError(folder + ": no labels" +
+                      (arguments.rater >= 0 ? " from rater " + std::to_string(arguments.rater) : ""));
+  }
+
+  // Grade bins: a rater file given, else those of the rater that made the grades.
+  std::string grading_source = "frugal's default bins";
+  if (!arguments.rater_file.empty()) {
+    options.grading = read_rater_file(arguments.rater_file).grading;
+    grading_source = arguments.rater_file;
+  } else {
+    for (const LabelSet& set : label_sets)
+      if (set.info.kind == LabelKind::grade) {
+        options.grading = set.info.rater.grading;
+        grading_source = set.info.folder + "/manifest.json";
+      }
+  }
+  if (const std::string error = options.validate(); !error.empty()) throw UserError(as_option_message(error));
+
+  // One sample per label; each image is read once however many raters labelled it.
+  learn::TrainingSet training;
+  std::map<std::pair<int, int>, FloatImage> images;
+  std::set<int> labelled_subjects;
+  const auto image_of = [&](int subject, int rescan) -> const FloatImage& {
+    const auto key = std::make_pair(subject, rescan);
+    auto found = images.find(key);
+    if (found == images.end())
+      found = images.emplace(key, read_nifti_image(phantoms.find(subject, rescan)->image_path)).first;
+    return found->second;
+  };
+  if (!classical) {
+    for (LabelSet& set : label_sets)
+      for (Label& label : set.labels) {
+        labelled_subjects.insert(label.subject);
+        const FloatImage& image = image_of(label.subject, label.rescan);
+        if (!label.mask.empty() && label.mask.shape() != image.shape())
+          throw UserError(set.info.folder + ": the mask of subject " + std::to_string(label.subject) + ", rater " +
+                          std::to_string(label.rater) + " has another grid than its image " +
+                          phantoms.find(label.subject, label.rescan)->image_path +
+                          "; the labels were made at another image size (--dims or geometry differ)");
+        training.add(image, std::move(label));
+      }
+  } else if (!phantoms.rows().empty()) {
+    // Classical strategies learn nothing; one image tells the model the grid it will see.
+    training.add_unlabelled(read_nifti_image(phantoms.rows().front().image_path));
+  }
+  int unlabelled = 0;
+  if (options.consistency_weight > 0.0 && !classical)
+    for (const TruthRow& row : phantoms.rows())
+      if (labelled_subjects.count(row.subject) == 0) {
+        training.add_unlabelled(read_nifti_image(row.image_path));
+        ++unlabelled;
+      }
+  images.clear();
+
+  learn::TrainResult result;
+  try {
+    result = learn::train(training, options);
+  } catch (const UserError& error) {
+    throw UserError(as_option_message(error.what()));
+  }
+  // The sidecar describes the checkpoint beside it: remove an old one first, so that a run killed
+  // between the two files never leaves a new model with an old description.
+  std::error_code ignored;
+  std::filesystem::remove(arguments.out + ".json", ignored);
+  result.model.save(arguments.out);
+
+  json sidecar;
+  sidecar["tool"] = "frugal";
+  sidecar["version"] = kVersion;
+  sidecar["schema_version"] = kOutputSchemaVersion;
+  sidecar["kind"] = "model";
+  sidecar["model"] = arguments.out;
+  sidecar["strategy"] = learn::to_string(options.strategy);
+  sidecar["options"] = options_json(options);
+  sidecar["grading_bins_from"] = grading_source;
+  sidecar["phantom_set"] = arguments.phantoms;
+  sidecar["rater"] = arguments.rater;
+  sidecar["training_images"] = training.size();
+  sidecar["unlabelled_images"] = unlabelled;
+  double paid_hours = 0.0, used_hours = 0.0;
+  json sets = json::array();
+  for (const LabelSet& set : label_sets) {
+    sets.push_back({{"folder", set.info.folder},
+                    {"label_kind", to_string(set.info.kind)},
+                    {"rater_file", set.info.rater_file},
+                    {"raters", set.info.raters},
+                    {"labels_used", set.labels.size()},
+                    {"annotator_hours", set.info.annotator_hours},
+                    {"annotator_hours_used", set.annotator_seconds / 3600.0}});
+    paid_hours += set.info.annotator_hours;
+    used_hours += set.annotator_seconds / 3600.0;
+  }
+  sidecar["label_sets"] = sets;
+  sidecar["annotator_hours"] = paid_hours;
+  sidecar["annotator_hours_used"] = used_hours;
+  const learn::TrainSummary& summary = result.summary;
+  sidecar["summary"] = {{"epochs_run", summary.epochs_run},
+                        {"best_epoch", summary.best_epoch},
+                        {"best_validation_loss",
+                         std::isfinite(summary.best_validation_loss) ? json(summary.best_validation_loss) : json()},
+                        {"training_loss", summary.training_loss},
+                        {"validation_loss", summary.validation_loss},
+                        {"seconds", summary.seconds},
+                        {"images_per_second", summary.images_per_second}};
+  sidecar["caution"] = "Trained on synthetic phantoms with simulated labels; not for clinical use.";
+  WholeFile sidecar_file(arguments.out + ".json");
+  sidecar_file.write(sidecar.dump(2) + "\n");
+  sidecar_file.commit();
+
+  std::string labels_text;
+  for (const LabelSet& set : label_sets)
+    labels_text += (labels_text.empty() ? "" : " + ") + std::to_string(set.labels.size()) + " " +
+                   to_string(set.info.kind) + " labels";
+  if (classical) {
+    std::printf("%s needs no training; wrote %s (+ .json)\n", arguments.strategy.c_str(), arguments.out.c_str());
+    return;
+  }
+  std::printf("trained %s on %s (%s annotator-hours paid)%s\n", arguments.strategy.c_str(), labels_text.c_str(),
+              hours(paid_hours).c_str(),
+              unlabelled > 0 ? (" and " + std::to_string(unlabelled) + " unlabelled images").c_str() : "");
+  const std::string validation = std::isfinite(summary.best_validation_loss)
+                                     ? ", validation loss " + std::to_string(summary.best_validation_loss)
+                                     : ", no validation split";
+  std::printf("%d epochs (best %d%s) in %.1f s, %.0f images/s; wrote %s (+ .json)\n", summary.epochs_run,
+              summary.best_epoch, validation.c_str(), summary.seconds, summary.images_per_second,
+              arguments.out.c_str());
+}
+
+}  // namespace
+
+void add_train_command(CLI::App& app) {
+  auto arguments = std::make_shared<TrainArguments>();
+  learn::TrainOptions& o = arguments->options;
+  CLI::App* command = app.add_subcommand(
+      "train",
+      "Train one learning strategy on a phantom set's images and the labels bought for them (label sets from frugal "
+      "labels); writes MODEL.pt and MODEL.pt.json (docs/train.md).");
+  command->add_option("--phantoms", arguments->phantoms, "Phantom set folder (frugal phantoms) holding the images")
+      ->required();
+  command
+      ->add_option("--labels", arguments->labels,
+                   "Label set folder (frugal labels) for those subjects; give it twice for mixed (outlines + "
+                   "count, grade or presence labels)")
+      ->allow_extra_args(false);
+  command
+      ->add_option("--strategy", arguments->strategy,
+                   "mask, mask-robust, partial, partial-naive, count-map, grade-bounds, presence-mil, points, "
+                   "scalar, mixed, threshold, line-filter")
+      ->required();
+  command->add_option("--out", arguments->out, "Checkpoint file to write (MODEL.pt); the sidecar is MODEL.pt.json")
+      ->required();
+  command->add_option("--rater", arguments->rater, "Train on this panel member's labels only (0-based); -1 = all")
+      ->capture_default_str();
+  command->add_option("--epochs", o.epochs, "Passes over the training labels")->capture_default_str();
+  command->add_option("--batch-size", o.batch_size, "Images per optimiser step")->capture_default_str();
+  command->add_option("--learning-rate", o.learning_rate, "Adam step size, decayed to 0 on a cosine schedule")
+      ->capture_default_str();
+  command->add_option("--weight-decay", o.weight_decay, "Adam's L2 term")->capture_default_str();
+  command->add_option("--seed", o.seed, "Seed of the split, shuffling, augmentation and initial weights")
+      ->capture_default_str();
+  command->add_option("--threads", o.threads, "Torch threads")->capture_default_str();
+  command->add_option("--width", o.width, "Channels at the finest level of the network (doubled per level)")
+      ->capture_default_str();
+  command->add_option("--depth", o.depth, "Resolution levels; image sides must divide by 2^(depth-1)")
+      ->capture_default_str();
+  command->add_option("--normalization", arguments->normalization, "batch, instance or none")->capture_default_str();
+  command
+      ->add_option("--validation-fraction", o.validation_fraction,
+                   "Share of the labels held out to choose the best epoch; 0 = keep the last epoch")
+      ->capture_default_str();
+  command->add_option("--patience", o.patience, "Epochs without validation improvement before stopping; 0 = never")
+      ->capture_default_str();
+  command->add_flag("--bfloat16", arguments->bfloat16, "bfloat16 forward pass (the default: 2-3x faster on this class of CPU)");
+  command->add_flag("--full-precision", arguments->full_precision, "float32 throughout instead of the bfloat16 forward pass");
+  command->add_flag("--no-flips", arguments->no_flips, "Do not mirror training images at random");
+  command->add_option("--rotation-degrees", o.augmentation.rotation_degrees, "Random rotations within +-this angle")
+      ->capture_default_str();
+  command
+      ->add_option("--deformation-mm", o.augmentation.deformation_mm,
+                   "SD of random smooth deformations in mm; 0 = none")
+      ->capture_default_str();
+  command
+      ->add_option("--deformation-spacing-mm", o.augmentation.deformation_spacing_mm,
+                   "Control-point spacing of the deformations in mm (larger = smoother)")
+      ->capture_default_str();
+  command->add_option("--dice-weight", o.dice_weight, "Weight of the soft Dice term of mask losses")
+      ->capture_default_str();
+  command->add_option("--robust-loss", arguments->robust_loss, "mask-robust's loss: gce, bootstrap or smoothing")
+      ->capture_default_str();
+  command->add_option("--gce-q", o.gce_q, "Generalized cross entropy's q in (0, 1]")->capture_default_str();
+  command->add_option("--bootstrap-beta", o.bootstrap_beta, "Hard bootstrapping's weight on the given label")
+      ->capture_default_str();
+  command->add_option("--label-smoothing", o.label_smoothing, "Label smoothing's epsilon in [0, 0.5)")
+      ->capture_default_str();
+  command
+      ->add_option("--background-prior", o.background_prior,
+                   "partial, points: weight of 'unmarked voxels are mostly background'")
+      ->capture_default_str();
+  command->add_option("--pooling-sharpness", o.pooling_sharpness, "presence-mil: log-sum-exp sharpness r")
+      ->capture_default_str();
+  command->add_option("--point-radius-mm", o.point_radius_mm, "points: voxels this close to a click are positives")
+      ->capture_default_str();
+  command->add_option("--object-size-min-mm3", o.object_size_min_mm3, "points: smallest object per click, mm^3")
+      ->capture_default_str();
+  command->add_option("--object-size-max-mm3", o.object_size_max_mm3, "points: largest object per click, mm^3")
+      ->capture_default_str();
+  command->add_option("--mask-weight", o.mask_weight, "mixed: weight of the outline loss")->capture_default_str();
+  command->add_option("--weak-weight", o.weak_weight, "mixed: weight of the weak-label loss")->capture_default_str();
+  command
+      ->add_option("--consistency-weight", o.consistency_weight,
+                   "> 0 adds consistency under random deformations on the phantom set's unlabelled subjects")
+      ->capture_default_str();
+  command->add_option("--network", o.network_file,
+                      "TorchScript module to train instead of frugal's U-net (map strategies)");
+  command->add_option("--rater-file", arguments->rater_file,
+                      "Rater YAML whose grading bins to use (default: the grade label set's own rater)");
+  command->add_option("--field-low", o.field.low, "Field (for fractions): lowest image value inside")
+      ->capture_default_str();
+  command->add_option("--field-high", o.field.high, "Field: highest image value inside (voids: -400)")
+      ->capture_default_str();
+  command->add_flag("--field-drop-border", o.field.drop_border_connected,
+                    "Field: drop parts that touch the image border (air around a body)");
+  command->add_option("--threshold-hu", o.threshold_hu, "threshold: voxels strictly below count")
+      ->capture_default_str();
+  command
+      ->add_option("--line-threshold", o.line_filter.threshold,
+                   "line-filter: share of the maximum response that marks a line")
+      ->capture_default_str();
+  command->add_option("--line-min-length-mm", o.line_filter.min_length_mm, "line-filter: shortest counted lesion")
+      ->capture_default_str();
+  command->add_option("--line-max-length-mm", o.line_filter.max_length_mm, "line-filter: longest counted lesion")
+      ->capture_default_str();
+  command
+      ->add_option("--line-min-elongation", o.line_filter.min_elongation,
+                   "line-filter: smallest length/width ratio counted")
+      ->capture_default_str();
+  command->callback([arguments] { run_train(*arguments); });
+}
+
+}  // namespace frugal::cli
