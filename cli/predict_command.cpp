@@ -15,7 +15,7 @@
 
 #include "cli/commands.h"
 #include "cli/progress_bar.h"
-#include "corruptors/phantom_set_reader.h"
+#include "phantoms/phantom_set_reader.h"
 #include "experiments/learn/learner.h"
 #include "experiments/scoring/predictions_table.h"
 #include "frugal_version.h"

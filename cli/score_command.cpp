@@ -9,7 +9,7 @@
 #include <string>
 
 #include "cli/commands.h"
-#include "corruptors/phantom_set_reader.h"
+#include "phantoms/phantom_set_reader.h"
 #include "corruptors/rater_yaml.h"
 #include "experiments/scoring/predictions_table.h"
 #include "experiments/scoring/scoring.h"

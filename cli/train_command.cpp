@@ -17,7 +17,7 @@
 
 #include "cli/commands.h"
 #include "corruptors/label_set_reader.h"
-#include "corruptors/phantom_set_reader.h"
+#include "phantoms/phantom_set_reader.h"
 #include "corruptors/rater_yaml.h"
 #include "experiments/learn/learner.h"
 #include "frugal_version.h"

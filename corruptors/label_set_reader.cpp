@@ -9,7 +9,7 @@
 #include <nlohmann/json.hpp>
 #include <tuple>
 
-#include "corruptors/csv_table.h"
+#include "phantoms/csv_table.h"
 #include "corruptors/rater_yaml.h"
 #include "phantoms/nifti_io.h"
 #include "phantoms/user_error.h"

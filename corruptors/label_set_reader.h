@@ -9,7 +9,7 @@
 #include <vector>
 
 #include "corruptors/label.h"
-#include "corruptors/phantom_set_reader.h"
+#include "phantoms/phantom_set_reader.h"
 #include "corruptors/rater.h"
 
 namespace frugal {

@@ -37,15 +37,13 @@ frugal labels "$cohort" --rater raters/quick-reader.yaml --kind count --count 24
 frugal labels "$cohort" --rater raters/careful-reader.yaml --kind outline --count 60 --seed 2026 \
   --threads "$threads" --out demo/cohort-outlines --overwrite
 mkdir -p demo/models
-# Both strategies see about 6,000 training images (16 epochs of 384 against 40 of 144). One torch
-# thread: on a two-core machine that is also doing other work, a second thread mostly waits for
-# the first and slows training down.
+# Both strategies see about 6,000 training images (16 epochs of 384 against 40 of 144).
 frugal train --phantoms demo/cohort-train --labels demo/cohort-counts --strategy count-map --epochs 16 \
-  --threads 1 --out demo/models/count-map.pt
+  --threads "$threads" --out demo/models/count-map.pt
 frugal train --phantoms demo/cohort-train --labels demo/cohort-outlines --strategy mask --epochs 40 \
-  --threads 1 --out demo/models/mask.pt
+  --threads "$threads" --out demo/models/mask.pt
 for strategy in count-map mask; do
-  frugal predict "demo/models/$strategy.pt" --images demo/cohort-test --threads 1 \
+  frugal predict "demo/models/$strategy.pt" --images demo/cohort-test --threads "$threads" \
     --out "demo/predictions/$strategy" --overwrite
   frugal score "demo/predictions/$strategy/predictions.csv" --phantoms demo/cohort-test \
     --json "demo/predictions/$strategy/score.json" > "demo/predictions/$strategy/score.txt"

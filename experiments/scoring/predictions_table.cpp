@@ -6,7 +6,7 @@
 #include <map>
 #include <utility>
 
-#include "corruptors/csv_table.h"
+#include "phantoms/csv_table.h"
 #include "phantoms/user_error.h"
 
 namespace frugal::scoring {

@@ -10,7 +10,7 @@
 #include <string>
 #include <vector>
 
-#include "corruptors/phantom_set_reader.h"
+#include "phantoms/phantom_set_reader.h"
 #include "corruptors/rater.h"
 #include "experiments/measure/detection_matching.h"
 #include "experiments/scoring/predictions_table.h"

@@ -1,11 +1,11 @@
-#include "corruptors/phantom_set_reader.h"
+#include "phantoms/phantom_set_reader.h"
 
 #include <cmath>
 #include <filesystem>
 #include <fstream>
 #include <nlohmann/json.hpp>
 
-#include "corruptors/csv_table.h"
+#include "phantoms/csv_table.h"
 #include "phantoms/user_error.h"
 
 namespace frugal {

@@ -1,4 +1,4 @@
-#include "corruptors/csv_table.h"
+#include "phantoms/csv_table.h"
 
 #include <algorithm>
 #include <cctype>

@@ -1,4 +1,4 @@
-#include "corruptors/phantom_set_reader.h"
+#include "phantoms/phantom_set_reader.h"
 
 #include <gtest/gtest.h>
 
