@@ -15,11 +15,11 @@
 
 #include "cli/commands.h"
 #include "cli/progress_bar.h"
-#include "phantoms/phantom_set_reader.h"
 #include "experiments/learn/learner.h"
 #include "experiments/scoring/predictions_table.h"
 #include "frugal_version.h"
 #include "phantoms/nifti_io.h"
+#include "phantoms/phantom_set_reader.h"
 #include "phantoms/truth_tables.h"
 #include "phantoms/user_error.h"
 #include "phantoms/whole_file.h"

@@ -9,10 +9,10 @@
 #include <string>
 
 #include "cli/commands.h"
-#include "phantoms/phantom_set_reader.h"
 #include "corruptors/rater_yaml.h"
 #include "experiments/scoring/predictions_table.h"
 #include "experiments/scoring/scoring.h"
+#include "phantoms/phantom_set_reader.h"
 #include "phantoms/user_error.h"
 #include "phantoms/whole_file.h"
 

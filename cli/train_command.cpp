@@ -17,11 +17,11 @@
 
 #include "cli/commands.h"
 #include "corruptors/label_set_reader.h"
-#include "phantoms/phantom_set_reader.h"
 #include "corruptors/rater_yaml.h"
 #include "experiments/learn/learner.h"
 #include "frugal_version.h"
 #include "phantoms/nifti_io.h"
+#include "phantoms/phantom_set_reader.h"
 #include "phantoms/user_error.h"
 #include "phantoms/whole_file.h"
 
@@ -333,8 +333,10 @@ void add_train_command(CLI::App& app) {
       ->capture_default_str();
   command->add_option("--patience", o.patience, "Epochs without validation improvement before stopping; 0 = never")
       ->capture_default_str();
-  command->add_flag("--bfloat16", arguments->bfloat16, "bfloat16 forward pass (the default: 2-3x faster on this class of CPU)");
-  command->add_flag("--full-precision", arguments->full_precision, "float32 throughout instead of the bfloat16 forward pass");
+  command->add_flag("--bfloat16", arguments->bfloat16,
+                    "bfloat16 forward pass (the default: 2-3x faster on this class of CPU)");
+  command->add_flag("--full-precision", arguments->full_precision,
+                    "float32 throughout instead of the bfloat16 forward pass");
   command->add_flag("--no-flips", arguments->no_flips, "Do not mirror training images at random");
   command->add_option("--rotation-degrees", o.augmentation.rotation_degrees, "Random rotations within +-this angle")
       ->capture_default_str();

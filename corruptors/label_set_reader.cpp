@@ -9,8 +9,8 @@
 #include <nlohmann/json.hpp>
 #include <tuple>
 
-#include "phantoms/csv_table.h"
 #include "corruptors/rater_yaml.h"
+#include "phantoms/csv_table.h"
 #include "phantoms/nifti_io.h"
 #include "phantoms/user_error.h"
 

@@ -9,8 +9,8 @@
 #include <vector>
 
 #include "corruptors/label.h"
-#include "phantoms/phantom_set_reader.h"
 #include "corruptors/rater.h"
+#include "phantoms/phantom_set_reader.h"
 
 namespace frugal {
 

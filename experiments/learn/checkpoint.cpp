@@ -4,11 +4,10 @@
 #include <torch/script.h>
 #include <torch/torch.h>
 
-#include <nlohmann/json.hpp>
-
 #include <cmath>
 #include <filesystem>
 #include <limits>
+#include <nlohmann/json.hpp>
 #include <string>
 #include <unordered_map>
 #include <utility>
@@ -26,7 +25,9 @@ constexpr int kCheckpointVersion = 2;
 
 // JSON has no infinities: an unbounded field limit is written as null.
 json bound_to_json(double value) { return std::isinf(value) ? json(nullptr) : json(value); }
-double bound_from_json(const json& value, double unbounded) { return value.is_null() ? unbounded : value.get<double>(); }
+double bound_from_json(const json& value, double unbounded) {
+  return value.is_null() ? unbounded : value.get<double>();
+}
 
 Normalization normalization_from_string(const std::string& name) {
   for (Normalization normalization : {Normalization::batch, Normalization::instance, Normalization::none})
@@ -104,8 +105,9 @@ void read_description(const json& meta, TrainedModel::Impl& model) {
   model.line_filter.filter.beta = lines.at("beta").get<double>();
   model.line_filter.filter.c = lines.at("c").get<double>();
   model.line_filter.filter.dark_structures = lines.at("dark_structures").get<bool>();
-  model.line_filter.threshold_kind = lines.at("threshold_relative").get<bool>() ? baselines::ResponseThreshold::relative
-                                                                                 : baselines::ResponseThreshold::absolute;
+  model.line_filter.threshold_kind = lines.at("threshold_relative").get<bool>()
+                                         ? baselines::ResponseThreshold::relative
+                                         : baselines::ResponseThreshold::absolute;
   model.line_filter.threshold = lines.at("threshold").get<double>();
   model.line_filter.connectivity = lines.at("connectivity").get<int>();
   model.line_filter.min_voxels = lines.at("min_voxels").get<int>();
@@ -156,7 +158,8 @@ void TrainedModel::save(const std::string& path) const {
     } else {
       torch::serialize::OutputArchive archive;
       archive.write("frugal.meta", torch::from_blob(const_cast<char*>(meta.data()),
-                                                    {static_cast<std::int64_t>(meta.size())}, torch::kUInt8).clone());
+                                                    {static_cast<std::int64_t>(meta.size())}, torch::kUInt8)
+                                       .clone());
       archive.save_to(partial);
     }
   } catch (const c10::Error& error) {

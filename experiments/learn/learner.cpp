@@ -1,5 +1,7 @@
 // Training: the loop every strategy shares. Strategies differ only in their samples and losses
 // (strategy_losses.cpp); networks only behind internal::Network.
+#include "experiments/learn/learner.h"
+
 #include <torch/torch.h>
 
 #include <algorithm>
@@ -12,7 +14,6 @@
 #include <vector>
 
 #include "experiments/learn/augmentation.h"
-#include "experiments/learn/learner.h"
 #include "experiments/learn/model_internal.h"
 #include "experiments/learn/strategy_losses_internal.h"
 #include "phantoms/random.h"
@@ -76,8 +77,10 @@ Batch prepare_batch(const std::vector<Sample>& samples, const std::vector<std::s
   Batch batch;
   batch.size = static_cast<int>(members.size());
   const std::size_t voxels = shape.voxel_count();
-  const bool has_target = std::any_of(members.begin(), members.end(), [&](std::size_t m) { return !samples[m].target.empty(); });
-  const bool has_field = std::any_of(members.begin(), members.end(), [&](std::size_t m) { return !samples[m].field.empty(); });
+  const bool has_target =
+      std::any_of(members.begin(), members.end(), [&](std::size_t m) { return !samples[m].target.empty(); });
+  const bool has_field =
+      std::any_of(members.begin(), members.end(), [&](std::size_t m) { return !samples[m].field.empty(); });
   batch.images.resize(members.size() * voxels);
   if (has_target) batch.targets.assign(members.size() * voxels, 0.0F);
   if (has_field) batch.fields.assign(members.size() * voxels, 0.0F);
@@ -151,14 +154,16 @@ torch::Tensor consistency_loss(Network& network, const TrainedModel::Impl& model
   std::vector<float> target(batch.images.size());
   {
     torch::NoGradGuard no_grad;
-    const auto output = internal::forward_float(network, internal::voxel_tensor(batch.images, batch.size, model), model.bfloat16);
+    const auto output =
+        internal::forward_float(network, internal::voxel_tensor(batch.images, batch.size, model), model.bfloat16);
     const torch::Tensor prediction = internal::activate_map(output.map, model.strategy).contiguous();
     const float* values = prediction.data_ptr<float>();
     for (int i = 0; i < batch.size; ++i)
       warp_linear(values + static_cast<std::size_t>(i) * voxels, target.data() + static_cast<std::size_t>(i) * voxels,
                   batch.grids[static_cast<std::size_t>(i)]);
   }
-  const auto output = internal::forward_float(network, internal::voxel_tensor(batch.moved, batch.size, model), model.bfloat16);
+  const auto output =
+      internal::forward_float(network, internal::voxel_tensor(batch.moved, batch.size, model), model.bfloat16);
   torch::Tensor moved = internal::activate_map(output.map, model.strategy);
   torch::Tensor expected = internal::voxel_tensor(target, batch.size, model);
   if (model.strategy == Strategy::count_map) {
@@ -182,35 +187,40 @@ void check_trainable(const TrainingSet& set, const TrainOptions& options) {
   const Strategy strategy = options.strategy;
   const std::string name = to_string(strategy);
   if (is_classical(strategy)) return;
-  if (set.size() < 2) throw UserError("training set: at least 2 labelled images are needed, got " + std::to_string(set.size()));
+  if (set.size() < 2)
+    throw UserError("training set: at least 2 labelled images are needed, got " + std::to_string(set.size()));
   const std::vector<LabelKind> kinds = set.kinds();
   const std::vector<LabelKind> accepted = accepted_label_kinds(strategy);
   for (LabelKind kind : kinds)
     if (std::find(accepted.begin(), accepted.end(), kind) == accepted.end())
-      throw UserError("strategy " + name + " cannot train from " + frugal::to_string(kind) + " labels; it takes: " +
-                      kinds_text(accepted));
+      throw UserError("strategy " + name + " cannot train from " + frugal::to_string(kind) +
+                      " labels; it takes: " + kinds_text(accepted));
   if (strategy == Strategy::mixed) {
     const bool outlines = std::find(kinds.begin(), kinds.end(), LabelKind::outline) != kinds.end();
     if (!outlines || kinds.size() != 2)
-      throw UserError("strategy mixed needs outlines plus one kind of weak label (count, grade or presence); the set holds: " +
-                      kinds_text(kinds));
+      throw UserError(
+          "strategy mixed needs outlines plus one kind of weak label (count, grade or presence); the set holds: " +
+          kinds_text(kinds));
   } else if (kinds.size() != 1) {
     throw UserError("strategy " + name + " takes one kind of label; the set holds: " + kinds_text(kinds));
   }
   if (!options.network_file.empty() && !is_map_strategy(strategy))
-    throw UserError("train.network_file: strategy " + name + " has no map; only map strategies train a TorchScript network");
-  const bool needs_scalar = strategy == Strategy::scalar ||
-                            (strategy == Strategy::mixed && std::find(kinds.begin(), kinds.end(), LabelKind::count) != kinds.end());
+    throw UserError("train.network_file: strategy " + name +
+                    " has no map; only map strategies train a TorchScript network");
+  const bool needs_scalar =
+      strategy == Strategy::scalar ||
+      (strategy == Strategy::mixed && std::find(kinds.begin(), kinds.end(), LabelKind::count) != kinds.end());
   if (needs_scalar && !options.network_file.empty())
-    throw UserError("train.network_file: strategy " + name + " on counts needs frugal's scalar head; a TorchScript network has none");
+    throw UserError("train.network_file: strategy " + name +
+                    " on counts needs frugal's scalar head; a TorchScript network has none");
   if (options.consistency_weight > 0.0 && !is_map_strategy(strategy))
     throw UserError("train.consistency_weight: consistency compares maps; strategy " + name + " has none");
   const Shape shape = set.shape();
   const int divisor = 1 << (options.depth - 1);
   if (options.network_file.empty() &&
       (shape.x % divisor != 0 || shape.y % divisor != 0 || (shape.dims() == 3 && shape.z % divisor != 0)))
-    throw UserError("train.depth = " + std::to_string(options.depth) + ": image sides " + std::to_string(shape.x) + "x" +
-                    std::to_string(shape.y) + (shape.dims() == 3 ? "x" + std::to_string(shape.z) : "") +
+    throw UserError("train.depth = " + std::to_string(options.depth) + ": image sides " + std::to_string(shape.x) +
+                    "x" + std::to_string(shape.y) + (shape.dims() == 3 ? "x" + std::to_string(shape.z) : "") +
                     " must divide by " + std::to_string(divisor) + "; use a smaller depth or another image size");
   for (std::size_t i = 0; i < set.size(); ++i) {
     const Label& label = set.label(i);
@@ -281,9 +291,11 @@ TrainResult train(const TrainingSet& set, const TrainOptions& options) {
   std::iota(order.begin(), order.end(), std::size_t{0});
   RandomStream split_random = training_stream(options.seed, TrainingStream::split);
   shuffle(order, split_random);
-  std::size_t validation_count = static_cast<std::size_t>(std::lround(options.validation_fraction * static_cast<double>(n)));
+  std::size_t validation_count =
+      static_cast<std::size_t>(std::lround(options.validation_fraction * static_cast<double>(n)));
   if (options.validation_fraction > 0.0) validation_count = std::clamp<std::size_t>(validation_count, 1, n - 1);
-  const std::vector<std::size_t> validation(order.begin(), order.begin() + static_cast<std::ptrdiff_t>(validation_count));
+  const std::vector<std::size_t> validation(order.begin(),
+                                            order.begin() + static_cast<std::ptrdiff_t>(validation_count));
   std::vector<std::size_t> training(order.begin() + static_cast<std::ptrdiff_t>(validation_count), order.end());
   std::sort(training.begin(), training.end());
 
@@ -299,7 +311,8 @@ TrainResult train(const TrainingSet& set, const TrainOptions& options) {
     if (set.label(i).kind == model->kind) targets.push_back(set.label(i).value);
   }
   model->input_mean = sum / voxels;
-  model->input_scale = std::max(1e-6, std::sqrt(std::max(0.0, sum_squares / voxels - model->input_mean * model->input_mean)));
+  model->input_scale =
+      std::max(1e-6, std::sqrt(std::max(0.0, sum_squares / voxels - model->input_mean * model->input_mean)));
   const double target_mean = mean_of(targets);
   double target_variance = 0.0;
   for (double t : targets) target_variance += (t - target_mean) * (t - target_mean);
@@ -337,8 +350,8 @@ TrainResult train(const TrainingSet& set, const TrainOptions& options) {
     double clicks = 0.0;
     for (std::size_t i : training) clicks += samples[i].value;
     const double typical_mm3 = 0.5 * (options.object_size_min_mm3 + options.object_size_max_mm3);
-    const double fraction = clicks / static_cast<double>(training.size()) * typical_mm3 /
-                            (model->voxel_volume_mm3 * voxel_count);
+    const double fraction =
+        clicks / static_cast<double>(training.size()) * typical_mm3 / (model->voxel_volume_mm3 * voxel_count);
     network->set_map_bias(logit(std::clamp(fraction, 1e-3, 0.5)));
   }
   torch::optim::Adam optimizer(network->parameters(),
@@ -359,7 +372,8 @@ TrainResult train(const TrainingSet& set, const TrainOptions& options) {
     for (auto& group : optimizer.param_groups()) static_cast<torch::optim::AdamOptions&>(group.options()).lr(rate);
 
     std::vector<std::size_t> epoch_order = training;
-    RandomStream shuffle_random = training_stream(options.seed, TrainingStream::shuffle, static_cast<std::uint64_t>(epoch));
+    RandomStream shuffle_random =
+        training_stream(options.seed, TrainingStream::shuffle, static_cast<std::uint64_t>(epoch));
     shuffle(epoch_order, shuffle_random);
     std::vector<std::vector<std::size_t>> batches;
     for (std::size_t first = 0; first < epoch_order.size(); first += batch_size) {
@@ -388,8 +402,9 @@ TrainResult train(const TrainingSet& set, const TrainOptions& options) {
                              static_cast<std::uint64_t>(epoch));
         if (!unlabelled.empty()) {
           const std::uint64_t this_step = step + b;
-          next_unlabelled = prepare_consistency_batch(unlabelled, this_step * batch_size, static_cast<int>(batches[b].size()),
-                                                      geometry, transform, options.seed, this_step);
+          next_unlabelled =
+              prepare_consistency_batch(unlabelled, this_step * batch_size, static_cast<int>(batches[b].size()),
+                                        geometry, transform, options.seed, this_step);
         }
       });
     };
@@ -426,8 +441,9 @@ TrainResult train(const TrainingSet& set, const TrainOptions& options) {
     {
       torch::NoGradGuard no_grad;
       for (std::size_t first = 0; first < validation.size(); first += batch_size) {
-        const std::vector<std::size_t> members(validation.begin() + static_cast<std::ptrdiff_t>(first),
-                                               validation.begin() + static_cast<std::ptrdiff_t>(std::min(validation.size(), first + batch_size)));
+        const std::vector<std::size_t> members(
+            validation.begin() + static_cast<std::ptrdiff_t>(first),
+            validation.begin() + static_cast<std::ptrdiff_t>(std::min(validation.size(), first + batch_size)));
         Batch batch = prepare_batch(samples, members, geometry, nullptr, options.seed, 0);
         validation_sum += internal::batch_loss(*network, *model, batch, options).item<double>() * batch.size;
       }

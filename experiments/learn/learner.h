@@ -79,37 +79,37 @@ struct TrainOptions {
   Strategy strategy = Strategy::mask;
   int epochs = 30;
   int batch_size = 16;
-  double learning_rate = 3e-3;      // Adam; decays to 0 over `epochs` on a cosine schedule
-  double weight_decay = 1e-5;       // Adam's L2 term
+  double learning_rate = 3e-3;  // Adam; decays to 0 over `epochs` on a cosine schedule
+  double weight_decay = 1e-5;   // Adam's L2 term
   std::uint64_t seed = 1;
-  int threads = 2;                  // torch intra-op threads, set explicitly (Debian defaults to 1)
-  double validation_fraction = 0.2; // share of the bought labels held out for model selection
-  int patience = 8;                 // epochs without validation improvement before stopping; 0 = never
-  int width = 8;                    // channels at the finest level; doubled per level
-  int depth = 3;                    // resolution levels; image sides must divide by 2^(depth-1)
+  int threads = 2;                   // torch intra-op threads, set explicitly (Debian defaults to 1)
+  double validation_fraction = 0.2;  // share of the bought labels held out for model selection
+  int patience = 8;                  // epochs without validation improvement before stopping; 0 = never
+  int width = 8;                     // channels at the finest level; doubled per level
+  int depth = 3;                     // resolution levels; image sides must divide by 2^(depth-1)
   Normalization normalization = Normalization::batch;
-  bool channels_last = true;        // 4x faster convolutions on this CPU build (issue 4 figures)
-  bool bfloat16 = true;             // bfloat16 autocast of the forward pass (2-3x faster); float32 when off
-  AugmentationOptions augmentation; // flips (on), small rotations and smooth deformations (off)
-  double dice_weight = 1.0;         // mask, mask-robust, partial, mixed: + dice_weight * soft Dice
+  bool channels_last = true;         // 4x faster convolutions on this CPU build (issue 4 figures)
+  bool bfloat16 = true;              // bfloat16 autocast of the forward pass (2-3x faster); float32 when off
+  AugmentationOptions augmentation;  // flips (on), small rotations and smooth deformations (off)
+  double dice_weight = 1.0;          // mask, mask-robust, partial, mixed: + dice_weight * soft Dice
   RobustLoss robust_loss = RobustLoss::generalized_cross_entropy;  // mask-robust
-  double gce_q = 0.7;               // generalized cross entropy's q in (0, 1] (Zhang & Sabuncu's 0.7)
-  double bootstrap_beta = 0.8;      // hard bootstrapping's weight on the given label (Reed et al.'s 0.8)
-  double label_smoothing = 0.1;     // label smoothing's epsilon in [0, 0.5)
-  double background_prior = 0.05;   // partial, points: weight of "unmarked voxels are mostly background"
-  double pooling_sharpness = 4.0;   // presence-mil: r of log-sum-exp pooling (large r -> max)
-  double point_radius_mm = 1.0;     // points: voxels this close to a click are positives
+  double gce_q = 0.7;                // generalized cross entropy's q in (0, 1] (Zhang & Sabuncu's 0.7)
+  double bootstrap_beta = 0.8;       // hard bootstrapping's weight on the given label (Reed et al.'s 0.8)
+  double label_smoothing = 0.1;      // label smoothing's epsilon in [0, 0.5)
+  double background_prior = 0.05;    // partial, points: weight of "unmarked voxels are mostly background"
+  double pooling_sharpness = 4.0;    // presence-mil: r of log-sum-exp pooling (large r -> max)
+  double point_radius_mm = 1.0;      // points: voxels this close to a click are positives
   double object_size_min_mm3 = 2.0;  // points: size prior per click, in mm^3 (2D: mm^2 x slice)
   double object_size_max_mm3 = 40.0;
-  double mask_weight = 1.0;         // mixed: loss = mask_weight * mask loss + weak_weight * weak loss
+  double mask_weight = 1.0;  // mixed: loss = mask_weight * mask loss + weak_weight * weak loss
   double weak_weight = 1.0;
-  double consistency_weight = 0.0;  // > 0 adds transformation consistency on unlabelled images
-  double threshold_hu = -950.0;     // threshold: voxels strictly below count (Gevenois et al. 1995)
+  double consistency_weight = 0.0;          // > 0 adds transformation consistency on unlabelled images
+  double threshold_hu = -950.0;             // threshold: voxels strictly below count (Gevenois et al. 1995)
   baselines::LineCountOptions line_filter;  // line-filter: filter, threshold and counting rules
-  std::string network_file;         // TorchScript module for map strategies; empty = frugal's U-net
-  GradingOptions grading;           // the grading rater's bins (grade-bounds, scalar on grades)
-  FieldOptions field;               // grade-bounds, threshold and affected fractions
-  std::string validate() const;     // empty, or "train.<key> = <value>: <what is allowed>"
+  std::string network_file;                 // TorchScript module for map strategies; empty = frugal's U-net
+  GradingOptions grading;                   // the grading rater's bins (grade-bounds, scalar on grades)
+  FieldOptions field;                       // grade-bounds, threshold and affected fractions
+  std::string validate() const;             // empty, or "train.<key> = <value>: <what is allowed>"
 };
 
 // Images and the labels bought for them, one label per image (an image labelled twice is added
@@ -129,9 +129,9 @@ class TrainingSet {
   const FloatImage& image(std::size_t i) const { return images_.at(i); }
   const Label& label(std::size_t i) const { return labels_.at(i); }
   const std::vector<FloatImage>& unlabelled() const { return unlabelled_; }
-  Shape shape() const;                  // of every image; throws UserError when empty
-  LabelKind kind() const;               // the one kind of every label; throws UserError when empty or mixed
-  std::vector<LabelKind> kinds() const; // distinct kinds in order of first appearance
+  Shape shape() const;                   // of every image; throws UserError when empty
+  LabelKind kind() const;                // the one kind of every label; throws UserError when empty or mixed
+  std::vector<LabelKind> kinds() const;  // distinct kinds in order of first appearance
 
  private:
   void check_shape(const FloatImage& image, const std::string& what) const;
@@ -142,12 +142,12 @@ class TrainingSet {
 
 struct TrainSummary {
   int epochs_run = 0;
-  int best_epoch = 0;                     // 1-based epoch whose weights were kept
-  double best_validation_loss = 0.0;      // NaN when there was no validation split
-  std::vector<double> training_loss;      // per epoch
-  std::vector<double> validation_loss;    // per epoch (empty without a validation split)
+  int best_epoch = 0;                   // 1-based epoch whose weights were kept
+  double best_validation_loss = 0.0;    // NaN when there was no validation split
+  std::vector<double> training_loss;    // per epoch
+  std::vector<double> validation_loss;  // per epoch (empty without a validation split)
   double seconds = 0.0;
-  double images_per_second = 0.0;         // training images through the optimiser
+  double images_per_second = 0.0;  // training images through the optimiser
 };
 
 // A trained network with everything needed to predict (strategy, normalisation, bins, field).

@@ -1,8 +1,7 @@
-#include "experiments/learn/losses_internal.h"
-
 #include <string>
 
 #include "experiments/learn/constraints.h"
+#include "experiments/learn/losses_internal.h"
 #include "phantoms/user_error.h"
 
 namespace frugal::learn {
@@ -41,10 +40,10 @@ torch::Tensor bootstrapped_target(const torch::Tensor& logits, const torch::Tens
 }
 
 torch::Tensor marked_voxel_loss(const torch::Tensor& logits, const torch::Tensor& marked, double prior_weight) {
-  const torch::Tensor towards_lesion = torch::binary_cross_entropy_with_logits(
-      logits, torch::ones_like(logits), {}, {}, torch::Reduction::None);
-  const torch::Tensor towards_background = torch::binary_cross_entropy_with_logits(
-      logits, torch::zeros_like(logits), {}, {}, torch::Reduction::None);
+  const torch::Tensor towards_lesion =
+      torch::binary_cross_entropy_with_logits(logits, torch::ones_like(logits), {}, {}, torch::Reduction::None);
+  const torch::Tensor towards_background =
+      torch::binary_cross_entropy_with_logits(logits, torch::zeros_like(logits), {}, {}, torch::Reduction::None);
   const torch::Tensor unmarked = 1.0 - marked;
   return (towards_lesion * marked).sum() / torch::clamp_min(marked.sum(), 1.0) +
          prior_weight * (towards_background * unmarked).sum() / torch::clamp_min(unmarked.sum(), 1.0);

@@ -19,19 +19,19 @@ struct TrainedModel::Impl {
   Strategy strategy = Strategy::mask;
   LabelKind kind = LabelKind::outline;  // the label kind trained on (mixed: the weak kind)
   Shape shape;
-  double voxel_volume_mm3 = 1.0;        // of the training images (points' size prior)
+  double voxel_volume_mm3 = 1.0;  // of the training images (points' size prior)
   int width = 8;
   int depth = 3;
   Normalization normalization = Normalization::batch;
   bool channels_last = true;
   bool bfloat16 = false;
-  std::string network_file;             // the TorchScript module trained, if any
-  double input_mean = 0.0;              // images are fed as (value - input_mean) / input_scale
+  std::string network_file;  // the TorchScript module trained, if any
+  double input_mean = 0.0;   // images are fed as (value - input_mean) / input_scale
   double input_scale = 1.0;
-  double target_mean = 0.0;             // scalar heads predict (value - target_mean) / target_scale
+  double target_mean = 0.0;  // scalar heads predict (value - target_mean) / target_scale
   double target_scale = 1.0;
-  double pooling_sharpness = 4.0;       // presence-mil
-  double threshold_hu = -950.0;         // threshold
+  double pooling_sharpness = 4.0;  // presence-mil
+  double threshold_hu = -950.0;    // threshold
   baselines::LineCountOptions line_filter;
   GradingOptions grading;
   FieldOptions field;

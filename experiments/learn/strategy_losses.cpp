@@ -1,7 +1,5 @@
 // Samples and losses of every trained strategy. The loop (learner.cpp) is shared; strategies
 // differ only here: what a label becomes, and which loss reads the network's map or scalar.
-#include "experiments/learn/strategy_losses_internal.h"
-
 #include <algorithm>
 #include <array>
 #include <cmath>
@@ -9,6 +7,7 @@
 
 #include "experiments/learn/constraints.h"
 #include "experiments/learn/losses_internal.h"
+#include "experiments/learn/strategy_losses_internal.h"
 #include "experiments/learn/unet_internal.h"
 #include "phantoms/user_error.h"
 
@@ -67,8 +66,7 @@ std::vector<float> click_target(const FloatImage& image, const std::vector<Click
           const double dy = (y - index[1]) * geometry.spacing_mm[1];
           const double dz = shape.z > 1 ? (z - index[2]) * geometry.spacing_mm[2] : 0.0;
           const bool holds_click = x == centre[0] && y == centre[1] && z == centre[2];
-          if (holds_click || dx * dx + dy * dy + dz * dz <= radius_mm * radius_mm)
-            target[image.index(x, y, z)] = 1.0F;
+          if (holds_click || dx * dx + dy * dy + dz * dz <= radius_mm * radius_mm) target[image.index(x, y, z)] = 1.0F;
         }
   }
   return target;
@@ -120,8 +118,10 @@ torch::Tensor weak_loss(const NetworkOutput& output, const TrainedModel::Impl& m
       return size_constraint_penalty(field_fraction(output.map, field, model.shape.dims()), lower, upper).mean();
     case LabelKind::presence:
       return torch::binary_cross_entropy_with_logits(log_sum_exp_pool(output.map, model.pooling_sharpness), values);
-    case LabelKind::count: return torch::mse_loss(output.scalar, values);
-    default: FRUGAL_CHECK(false);
+    case LabelKind::count:
+      return torch::mse_loss(output.scalar, values);
+    default:
+      FRUGAL_CHECK(false);
   }
 }
 
@@ -140,7 +140,8 @@ torch::Tensor voxel_tensor(std::vector<float>& values, int n, const TrainedModel
 void normalise_into(const FloatImage& image, const TrainedModel::Impl& model, std::vector<float>& out) {
   out.resize(image.size());
   const double scale = 1.0 / model.input_scale;
-  for (std::size_t i = 0; i < image.size(); ++i) out[i] = static_cast<float>((image.data()[i] - model.input_mean) * scale);
+  for (std::size_t i = 0; i < image.size(); ++i)
+    out[i] = static_cast<float>((image.data()[i] - model.input_mean) * scale);
 }
 
 NetworkOutput forward_float(Network& network, const torch::Tensor& input, bool bfloat16) {
@@ -167,13 +168,19 @@ Sample make_sample(const FloatImage& image, const Label& label, const TrainedMod
     case Strategy::mask:
     case Strategy::mask_robust:
     case Strategy::partial:
-    case Strategy::partial_naive: sample.target = mask_of(label.mask); break;
+    case Strategy::partial_naive:
+      sample.target = mask_of(label.mask);
+      break;
     case Strategy::count_map:
       sample.value = static_cast<float>(label.value);
       sample.capped = label.capped ? 1.0F : 0.0F;
       break;
-    case Strategy::grade_bounds: set_interval(sample, label, model, image); break;
-    case Strategy::presence_mil: sample.value = static_cast<float>(label.value); break;
+    case Strategy::grade_bounds:
+      set_interval(sample, label, model, image);
+      break;
+    case Strategy::presence_mil:
+      sample.value = static_cast<float>(label.value);
+      break;
     case Strategy::points:
       sample.target = click_target(image, label.clicks, options.point_radius_mm);
       sample.value = static_cast<float>(label.clicks.size());
@@ -196,7 +203,8 @@ Sample make_sample(const FloatImage& image, const Label& label, const TrainedMod
       }
       break;
     case Strategy::threshold:
-    case Strategy::line_filter: FRUGAL_CHECK(false);
+    case Strategy::line_filter:
+      FRUGAL_CHECK(false);
   }
   return sample;
 }
@@ -209,8 +217,10 @@ torch::Tensor batch_loss(Network& network, const TrainedModel::Impl& model, Batc
   switch (model.strategy) {
     case Strategy::mask:
     case Strategy::mask_robust:
-    case Strategy::partial_naive: return outline_loss(map, voxels_of(batch.targets), model.strategy, options);
-    case Strategy::partial: return marked_voxel_loss(map, voxels_of(batch.targets), options.background_prior);
+    case Strategy::partial_naive:
+      return outline_loss(map, voxels_of(batch.targets), model.strategy, options);
+    case Strategy::partial:
+      return marked_voxel_loss(map, voxels_of(batch.targets), options.background_prior);
     case Strategy::count_map: {
       const torch::Tensor counts = torch::softplus(map).sum(reduce);
       const torch::Tensor loss = count_loss(counts, vector_tensor(batch.values), vector_tensor(batch.capped)).mean();
@@ -247,21 +257,24 @@ torch::Tensor batch_loss(Network& network, const TrainedModel::Impl& model, Batc
       torch::Tensor loss = torch::zeros({}, torch::kFloat32);
       if (outlined.numel() > 0) {
         const torch::Tensor targets = voxels_of(batch.targets).index_select(0, outlined);
-        loss = loss + options.mask_weight * outline_loss(map.index_select(0, outlined), targets, Strategy::mask, options);
+        loss =
+            loss + options.mask_weight * outline_loss(map.index_select(0, outlined), targets, Strategy::mask, options);
       }
       if (weak.numel() > 0) {
         NetworkOutput part{map.index_select(0, weak),
                            output.scalar.defined() ? output.scalar.index_select(0, weak) : torch::Tensor()};
         torch::Tensor field;
         if (!batch.fields.empty()) field = voxels_of(batch.fields).index_select(0, weak);
-        loss = loss + options.weak_weight * weak_loss(part, model, field, vector_tensor(batch.values).index_select(0, weak),
+        loss = loss + options.weak_weight * weak_loss(part, model, field,
+                                                      vector_tensor(batch.values).index_select(0, weak),
                                                       vector_tensor(batch.lower).index_select(0, weak),
                                                       vector_tensor(batch.upper).index_select(0, weak));
       }
       return loss;
     }
     case Strategy::threshold:
-    case Strategy::line_filter: break;
+    case Strategy::line_filter:
+      break;
   }
   FRUGAL_CHECK(false);
 }

@@ -67,17 +67,26 @@ Strategy strategy_from_string(const std::string& name) {
 std::vector<LabelKind> accepted_label_kinds(Strategy strategy) {
   switch (strategy) {
     case Strategy::mask:
-    case Strategy::mask_robust: return {LabelKind::outline};
+    case Strategy::mask_robust:
+      return {LabelKind::outline};
     case Strategy::partial:
-    case Strategy::partial_naive: return {LabelKind::partial_mask};
-    case Strategy::count_map: return {LabelKind::count};
-    case Strategy::grade_bounds: return {LabelKind::grade};
-    case Strategy::presence_mil: return {LabelKind::presence};
-    case Strategy::points: return {LabelKind::points};
-    case Strategy::scalar: return {LabelKind::count, LabelKind::grade, LabelKind::presence};
-    case Strategy::mixed: return {LabelKind::outline, LabelKind::count, LabelKind::grade, LabelKind::presence};
+    case Strategy::partial_naive:
+      return {LabelKind::partial_mask};
+    case Strategy::count_map:
+      return {LabelKind::count};
+    case Strategy::grade_bounds:
+      return {LabelKind::grade};
+    case Strategy::presence_mil:
+      return {LabelKind::presence};
+    case Strategy::points:
+      return {LabelKind::points};
+    case Strategy::scalar:
+      return {LabelKind::count, LabelKind::grade, LabelKind::presence};
+    case Strategy::mixed:
+      return {LabelKind::outline, LabelKind::count, LabelKind::grade, LabelKind::presence};
     case Strategy::threshold:
-    case Strategy::line_filter: return {};
+    case Strategy::line_filter:
+      return {};
   }
   FRUGAL_CHECK(false);
 }
@@ -102,9 +111,12 @@ RobustLoss robust_loss_from_string(const std::string& name) {
 
 std::string to_string(Normalization normalization) {
   switch (normalization) {
-    case Normalization::batch: return "batch";
-    case Normalization::instance: return "instance";
-    case Normalization::none: return "none";
+    case Normalization::batch:
+      return "batch";
+    case Normalization::instance:
+      return "instance";
+    case Normalization::none:
+      return "none";
   }
   FRUGAL_CHECK(false);
 }
@@ -128,8 +140,8 @@ LabelImage estimate_field(const FloatImage& image, const FieldOptions& field) {
     for (int z = 0; z < shape.z; ++z)
       for (int y = 0; y < shape.y; ++y)
         for (int x = 0; x < shape.x; ++x) {
-          const bool border = x == 0 || y == 0 || x == shape.x - 1 || y == shape.y - 1 ||
-                              (shape.z > 1 && (z == 0 || z == shape.z - 1));
+          const bool border =
+              x == 0 || y == 0 || x == shape.x - 1 || y == shape.y - 1 || (shape.z > 1 && (z == 0 || z == shape.z - 1));
           if (border) touches[static_cast<std::size_t>(components.labels.at(x, y, z))] = true;
         }
     for (std::size_t i = 0; i < mask.size(); ++i)
@@ -167,8 +179,8 @@ std::string TrainOptions::validate() const {
   if (!(point_radius_mm >= 0.0 && point_radius_mm <= 50.0))
     return "train.point_radius_mm = " + number(point_radius_mm) + ": allowed [0, 50]";
   if (!(object_size_min_mm3 >= 0.0 && object_size_min_mm3 < object_size_max_mm3 && std::isfinite(object_size_max_mm3)))
-    return "train.object_size_min_mm3 = " + number(object_size_min_mm3) + ", object_size_max_mm3 = " +
-           number(object_size_max_mm3) + ": need 0 <= min < max";
+    return "train.object_size_min_mm3 = " + number(object_size_min_mm3) +
+           ", object_size_max_mm3 = " + number(object_size_max_mm3) + ": need 0 <= min < max";
   if (!non_negative(mask_weight)) return "train.mask_weight = " + number(mask_weight) + ": must be zero or positive";
   if (!non_negative(weak_weight)) return "train.weak_weight = " + number(weak_weight) + ": must be zero or positive";
   if (!non_negative(consistency_weight))
@@ -189,7 +201,8 @@ void TrainingSet::check_shape(const FloatImage& image, const std::string& what) 
 
 void TrainingSet::add(FloatImage image, Label label) {
   check_shape(image, "image " + std::to_string(size()));
-  if ((label.kind == LabelKind::outline || label.kind == LabelKind::partial_mask) && label.mask.shape() != image.shape())
+  if ((label.kind == LabelKind::outline || label.kind == LabelKind::partial_mask) &&
+      label.mask.shape() != image.shape())
     throw UserError("training set: the mask of label " + std::to_string(size()) + " does not match its image's shape");
   images_.push_back(std::move(image));
   labels_.push_back(std::move(label));

@@ -1,10 +1,9 @@
-#include "experiments/learn/unet_internal.h"
-
 #include <cmath>
 #include <memory>
 #include <string>
 
 #include "experiments/learn/network_internal.h"
+#include "experiments/learn/unet_internal.h"
 
 namespace frugal::learn::internal {
 namespace {
@@ -45,9 +44,8 @@ UNetImpl::UNetImpl(const UNetOptions& options) : options_(options) {
   }
   // up_[level] joins level + 1 (upsampled) with the skip of `level`.
   for (int level = 0; level + 1 < depth; ++level)
-    up_.push_back(register_module("up" + std::to_string(level),
-                                  conv_block(dims, channels(level + 1) + channels(level), channels(level),
-                                             options.normalization())));
+    up_.push_back(register_module("up" + std::to_string(level), conv_block(dims, channels(level + 1) + channels(level),
+                                                                           channels(level), options.normalization())));
   std::vector<std::int64_t> head_shape{options.map_channels(), options.width(), 1, 1};
   if (dims == 3) head_shape.push_back(1);
   // PyTorch's default convolution initialisation bound, 1 / sqrt(fan_in), for a 1x1 kernel.
@@ -77,7 +75,8 @@ UNetOutput UNetImpl::forward(const torch::Tensor& input) {
         x, torch::nn::functional::InterpolateFuncOptions().size(size).mode(torch::kNearest));
     x = up_[static_cast<std::size_t>(level)]->forward(torch::cat({x, skip}, 1));
   }
-  torch::Tensor map = dims == 2 ? torch::conv2d(x, head_weight_, head_bias_) : torch::conv3d(x, head_weight_, head_bias_);
+  torch::Tensor map =
+      dims == 2 ? torch::conv2d(x, head_weight_, head_bias_) : torch::conv3d(x, head_weight_, head_bias_);
   return {map, scalar};
 }
 

@@ -17,11 +17,11 @@ namespace frugal::learn::internal {
 
 struct UNetOptions {
   explicit UNetOptions(int dims) : dims_(dims) {}
-  TORCH_ARG(int, dims);                // 2 or 3
+  TORCH_ARG(int, dims);  // 2 or 3
   TORCH_ARG(int, in_channels) = 1;
   TORCH_ARG(int, map_channels) = 1;
-  TORCH_ARG(int, width) = 8;           // channels at level 0, doubled per level
-  TORCH_ARG(int, depth) = 3;           // levels, including the bottleneck
+  TORCH_ARG(int, width) = 8;  // channels at level 0, doubled per level
+  TORCH_ARG(int, depth) = 3;  // levels, including the bottleneck
   TORCH_ARG(Normalization, normalization) = Normalization::batch;
 };
 

@@ -10,10 +10,10 @@
 #include <string>
 #include <vector>
 
-#include "phantoms/phantom_set_reader.h"
 #include "corruptors/rater.h"
 #include "experiments/measure/detection_matching.h"
 #include "experiments/scoring/predictions_table.h"
+#include "phantoms/phantom_set_reader.h"
 
 namespace frugal::scoring {
 

@@ -84,14 +84,15 @@ TEST(TrainOptions, ValidateNamesTheKey) {
             std::string::npos);
   EXPECT_NE(message_after([](TrainOptions& o) { o.consistency_weight = -1.0; }).find("train.consistency_weight"),
             std::string::npos);
-  EXPECT_NE(message_after([](TrainOptions& o) { o.augmentation.rotation_degrees = 90.0; })
-                .find("train.augmentation.rotation_degrees"),
+  EXPECT_NE(message_after([](TrainOptions& o) {
+              o.augmentation.rotation_degrees = 90.0;
+            }).find("train.augmentation.rotation_degrees"),
             std::string::npos);
   EXPECT_THROW(strategy_from_string("density"), UserError);
   EXPECT_EQ(strategy_from_string("grade-bounds"), Strategy::grade_bounds);
   EXPECT_EQ(to_string(Strategy::count_map), "count-map");
-  for (const char* name : {"mask", "mask-robust", "partial", "partial-naive", "count-map", "grade-bounds", "presence-mil",
-                           "points", "scalar", "mixed", "threshold", "line-filter"})
+  for (const char* name : {"mask", "mask-robust", "partial", "partial-naive", "count-map", "grade-bounds",
+                           "presence-mil", "points", "scalar", "mixed", "threshold", "line-filter"})
     EXPECT_EQ(to_string(strategy_from_string(name)), name);
   EXPECT_EQ(robust_loss_from_string("bootstrap"), RobustLoss::bootstrapping);
   EXPECT_THROW(robust_loss_from_string("mae"), UserError);

@@ -138,7 +138,8 @@ inline double lesion_recall(const std::vector<Prediction>& predictions, const st
   double found = 0.0, lesions = 0.0;
   for (std::size_t i = 0; i < subjects.size(); ++i) {
     LabelImage lesion_mask(subjects[i].labels.geometry(), 0);
-    for (std::size_t v = 0; v < lesion_mask.size(); ++v) lesion_mask.data()[v] = subjects[i].labels.data()[v] == kLesion;
+    for (std::size_t v = 0; v < lesion_mask.size(); ++v)
+      lesion_mask.data()[v] = subjects[i].labels.data()[v] == kLesion;
     const auto components = measure::label_components(lesion_mask);
     std::vector<bool> hit(static_cast<std::size_t>(components.count) + 1, false);
     for (std::size_t v = 0; v < lesion_mask.size(); ++v)

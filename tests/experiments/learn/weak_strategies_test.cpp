@@ -65,7 +65,8 @@ TEST(MaskRobust, SegmentsLesionsFromNoisyOutlines) {
     as_labels.push_back(std::move(prediction));
   }
   const double label_dice = pooled_dice(as_labels, problem.train);
-  const double dice = pooled_dice(train_and_predict(problem, labels, quick_options(Strategy::mask_robust)), problem.test);
+  const double dice =
+      pooled_dice(train_and_predict(problem, labels, quick_options(Strategy::mask_robust)), problem.test);
   std::printf("pooled Dice against truth: noisy outlines %.3f, mask-robust (gce) %.3f\n", label_dice, dice);
   EXPECT_GE(dice, label_dice + 0.1);
 }
@@ -75,16 +76,17 @@ TEST(MaskRobust, SegmentsLesionsFromNoisyOutlines) {
 TEST(MaskRobust, EveryRobustLossTrains) {
   const Problem problem = draw_problem(small_scenario(Family::streaks, kSide), 32);
   const auto labels = buy_labels(problem.train, LabelKind::outline, sloppy_outliner(), kSeed);
-  for (RobustLoss loss : {RobustLoss::generalized_cross_entropy, RobustLoss::bootstrapping, RobustLoss::label_smoothing}) {
+  for (RobustLoss loss :
+       {RobustLoss::generalized_cross_entropy, RobustLoss::bootstrapping, RobustLoss::label_smoothing}) {
     TrainOptions options = quick_options(Strategy::mask_robust);
     options.epochs = 2;
     options.robust_loss = loss;
     const TrainResult result = train(training_set(problem.train, labels), options);
     EXPECT_TRUE(std::isfinite(result.summary.training_loss.back())) << to_string(loss);
     const Prediction prediction = predict(result.model, problem.test.front().image);
-    EXPECT_TRUE(std::all_of(prediction.map.voxels().begin(), prediction.map.voxels().end(),
-                            [](float v) { return v >= 0.0F && v <= 1.0F; }))
-        << to_string(loss);
+    EXPECT_TRUE(std::all_of(prediction.map.voxels().begin(), prediction.map.voxels().end(), [](float v) {
+      return v >= 0.0F && v <= 1.0F;
+    })) << to_string(loss);
   }
 }
 
@@ -101,8 +103,8 @@ TEST(Partial, FindsMoreLesionsThanTheNaiveReading) {
   const auto naive = train_and_predict(problem, labels, quick_options(Strategy::partial_naive));
   const double partial_recall = lesion_recall(partial, problem.test);
   const double naive_recall = lesion_recall(naive, problem.test);
-  std::printf("lesion recall: partial %.3f, partial-naive %.3f; pooled Dice: partial %.3f, naive %.3f\n", partial_recall,
-              naive_recall, pooled_dice(partial, problem.test), pooled_dice(naive, problem.test));
+  std::printf("lesion recall: partial %.3f, partial-naive %.3f; pooled Dice: partial %.3f, naive %.3f\n",
+              partial_recall, naive_recall, pooled_dice(partial, problem.test), pooled_dice(naive, problem.test));
   EXPECT_GE(partial_recall, naive_recall + 0.1);
   EXPECT_GE(partial_recall, 0.5);
 }
@@ -164,9 +166,10 @@ TEST(Points, LocalisesLesionsFromClicks) {
   const double baseline_mae = mean_absolute_error(std::vector<double>(truth.size(), mean_of(clicks)), truth);
   const double recall = lesion_recall(predictions, problem.test);
   const double dice = pooled_dice(predictions, problem.test);
-  std::printf("points: lesion recall %.3f, pooled Dice %.3f; count MAE %.3f (mean %.2f, true mean %.2f), "
-              "mean-prediction MAE %.3f\n",
-              recall, dice, model_mae, mean_of(predicted), mean_of(truth), baseline_mae);
+  std::printf(
+      "points: lesion recall %.3f, pooled Dice %.3f; count MAE %.3f (mean %.2f, true mean %.2f), "
+      "mean-prediction MAE %.3f\n",
+      recall, dice, model_mae, mean_of(predicted), mean_of(truth), baseline_mae);
   EXPECT_GE(recall, 0.7);
   EXPECT_GE(dice, 0.4);
   EXPECT_LE(model_mae, baseline_mae);
@@ -187,9 +190,10 @@ TEST(Mixed, FewOutlinesPlusManyGradesSegment) {
   options.grading = rater.grading;
   const double mixed_dice = pooled_dice(train_and_predict(problem, labels, options), problem.test);
   const Problem few{std::vector<Subject>(problem.train.begin(), problem.train.begin() + kOutlined), problem.test};
-  const double mask_dice = pooled_dice(
-      train_and_predict(few, std::vector<Label>(outlines.begin(), outlines.begin() + kOutlined), quick_options(Strategy::mask)),
-      problem.test);
+  const double mask_dice =
+      pooled_dice(train_and_predict(few, std::vector<Label>(outlines.begin(), outlines.begin() + kOutlined),
+                                    quick_options(Strategy::mask)),
+                  problem.test);
   std::printf("pooled Dice: mixed %.3f, mask on the %zu outlines alone %.3f\n", mixed_dice, kOutlined, mask_dice);
   EXPECT_GE(mixed_dice, mask_dice - 0.02);
   EXPECT_GE(mixed_dice, 0.6);
