@@ -45,12 +45,6 @@ struct TrainArguments {
   learn::TrainOptions options;
 };
 
-learn::Normalization normalization_from_string(const std::string& name) {
-  for (const auto value : {learn::Normalization::batch, learn::Normalization::instance, learn::Normalization::none})
-    if (learn::to_string(value) == name) return value;
-  throw UserError("--normalization '" + name + "' is unknown; allowed: batch, instance, none");
-}
-
 json options_json(const learn::TrainOptions& o) {
   return {{"strategy", learn::to_string(o.strategy)},
           {"epochs", o.epochs},
@@ -128,7 +122,7 @@ std::string hours(double value) {
 void run_train(TrainArguments& arguments) {
   learn::TrainOptions& options = arguments.options;
   options.strategy = learn::strategy_from_string(arguments.strategy);
-  options.normalization = normalization_from_string(arguments.normalization);
+  options.normalization = learn::normalization_from_string(arguments.normalization);
   options.robust_loss = learn::robust_loss_from_string(arguments.robust_loss);
   if (arguments.bfloat16 && arguments.full_precision)
     throw UserError("--bfloat16 and --full-precision contradict each other; give one");

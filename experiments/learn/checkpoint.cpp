@@ -29,12 +29,6 @@ double bound_from_json(const json& value, double unbounded) {
   return value.is_null() ? unbounded : value.get<double>();
 }
 
-Normalization normalization_from_string(const std::string& name) {
-  for (Normalization normalization : {Normalization::batch, Normalization::instance, Normalization::none})
-    if (to_string(normalization) == name) return normalization;
-  throw UserError("unknown normalization '" + name + "'");
-}
-
 json describe(const TrainedModel::Impl& model) {
   const auto& lines = model.line_filter;
   return json{

@@ -61,6 +61,7 @@ RobustLoss robust_loss_from_string(const std::string& name);  // throws UserErro
 
 enum class Normalization { batch, instance, none };
 std::string to_string(Normalization normalization);
+Normalization normalization_from_string(const std::string& name);  // throws UserError listing the names
 
 // The field that affected fractions refer to: voxels with intensity in [low, high] (image
 // units), optionally without the components of that set that touch the image border (air
@@ -88,7 +89,7 @@ struct TrainOptions {
   int width = 8;                     // channels at the finest level; doubled per level
   int depth = 3;                     // resolution levels; image sides must divide by 2^(depth-1)
   Normalization normalization = Normalization::batch;
-  bool channels_last = true;         // 4x faster convolutions on this CPU build (issue 4 figures)
+  bool channels_last = true;         // about 4x faster convolutions than the default layout here
   bool bfloat16 = true;              // bfloat16 autocast of the forward pass (2-3x faster); float32 when off
   AugmentationOptions augmentation;  // flips (on), small rotations and smooth deformations (off)
   double dice_weight = 1.0;          // mask, mask-robust, partial, mixed: + dice_weight * soft Dice

@@ -121,6 +121,12 @@ std::string to_string(Normalization normalization) {
   FRUGAL_CHECK(false);
 }
 
+Normalization normalization_from_string(const std::string& name) {
+  for (Normalization normalization : {Normalization::batch, Normalization::instance, Normalization::none})
+    if (to_string(normalization) == name) return normalization;
+  throw UserError("unknown normalization '" + name + "'; allowed: batch, instance, none");
+}
+
 std::string FieldOptions::validate() const {
   if (std::isnan(low) || std::isnan(high) || !(low < high))
     return "train.field.low = " + number(low) + ", high = " + number(high) + ": low must be below high";
