@@ -7,6 +7,7 @@
 #include <algorithm>
 #include <chrono>
 #include <cmath>
+#include <exception>
 #include <numeric>
 #include <string>
 #include <thread>
@@ -319,7 +320,8 @@ TrainResult train(const TrainingSet& set, const TrainOptions& options) {
   target_variance /= static_cast<double>(std::max<std::size_t>(1, targets.size()));
   model->target_mean = target_mean;
   model->target_scale = std::max(1.0, std::sqrt(target_variance));
-  if (options.strategy == Strategy::scalar && model->kind != LabelKind::presence)
+  // scalar regresses standardised labels; identical labels have no spread to standardise by.
+  if (options.strategy == Strategy::scalar && model->kind != LabelKind::presence && target_variance > 1e-12)
     model->target_scale = std::max(1e-3, std::sqrt(target_variance));
 
   std::vector<Sample> samples(n);
@@ -378,8 +380,10 @@ TrainResult train(const TrainingSet& set, const TrainOptions& options) {
     std::vector<std::vector<std::size_t>> batches;
     for (std::size_t first = 0; first < epoch_order.size(); first += batch_size) {
       const std::size_t last = std::min(epoch_order.size(), first + batch_size);
-      // A batch of one breaks batch normalisation; fold a lone last sample into the batch before.
-      if (last - first == 1 && !batches.empty() && options.normalization == Normalization::batch) {
+      // A lone sample at the end gives batch normalisation a one-image batch; fold it into the
+      // batch before.
+      if (last == epoch_order.size() && last - first == 1 && !batches.empty() &&
+          options.normalization == Normalization::batch) {
         batches.back().push_back(epoch_order[first]);
         break;
       }
@@ -394,23 +398,29 @@ TrainResult train(const TrainingSet& set, const TrainOptions& options) {
     // optimiser works on this one.
     Batch next;
     ConsistencyBatch next_unlabelled;
+    std::exception_ptr worker_error;  // an exception on the worker is rethrown on this thread
     std::thread worker;
     const JoinOnExit join_worker(worker);
     const auto launch = [&](std::size_t b) {
       worker = std::thread([&, b] {
-        next = prepare_batch(samples, batches[b], geometry, &options.augmentation, options.seed,
-                             static_cast<std::uint64_t>(epoch));
-        if (!unlabelled.empty()) {
-          const std::uint64_t this_step = step + b;
-          next_unlabelled =
-              prepare_consistency_batch(unlabelled, this_step * batch_size, static_cast<int>(batches[b].size()),
-                                        geometry, transform, options.seed, this_step);
+        try {
+          next = prepare_batch(samples, batches[b], geometry, &options.augmentation, options.seed,
+                               static_cast<std::uint64_t>(epoch));
+          if (!unlabelled.empty()) {
+            const std::uint64_t this_step = step + b;
+            next_unlabelled =
+                prepare_consistency_batch(unlabelled, this_step * batch_size, static_cast<int>(batches[b].size()),
+                                          geometry, transform, options.seed, this_step);
+          }
+        } catch (...) {
+          worker_error = std::current_exception();
         }
       });
     };
     launch(0);
     for (std::size_t b = 0; b < batches.size(); ++b) {
       worker.join();
+      if (worker_error) std::rethrow_exception(worker_error);
       Batch current = std::move(next);
       ConsistencyBatch current_unlabelled = std::move(next_unlabelled);
       if (b + 1 < batches.size()) launch(b + 1);

@@ -92,7 +92,7 @@ struct TrainOptions {
   bool channels_last = true;         // about 4x faster convolutions than the default layout here
   bool bfloat16 = true;              // bfloat16 autocast of the forward pass (2-3x faster); float32 when off
   AugmentationOptions augmentation;  // flips (on), small rotations and smooth deformations (off)
-  double dice_weight = 1.0;          // mask, mask-robust, partial, mixed: + dice_weight * soft Dice
+  double dice_weight = 1.0;          // mask, mask-robust, partial-naive, mixed: + dice_weight * soft Dice
   RobustLoss robust_loss = RobustLoss::generalized_cross_entropy;  // mask-robust
   double gce_q = 0.7;                // generalized cross entropy's q in (0, 1] (Zhang & Sabuncu's 0.7)
   double bootstrap_beta = 0.8;       // hard bootstrapping's weight on the given label (Reed et al.'s 0.8)

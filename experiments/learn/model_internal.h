@@ -42,7 +42,8 @@ namespace internal {
 // The map's activation: softplus density for count-map, sigmoid probability otherwise.
 torch::Tensor activate_map(const torch::Tensor& map, Strategy strategy);
 
-// A view of plain floats as a [N, 1, spatial...] tensor in the model's memory format (a copy).
+// Plain floats copied into a [N, 1, spatial...] tensor in the model's memory format; the tensor
+// owns its memory.
 torch::Tensor voxel_tensor(std::vector<float>& values, int n, const TrainedModel::Impl& model);
 
 // Writes (value - input_mean) / input_scale for every voxel into `out`.

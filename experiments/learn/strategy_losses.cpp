@@ -132,9 +132,12 @@ torch::Tensor activate_map(const torch::Tensor& map, Strategy strategy) {
 }
 
 torch::Tensor voxel_tensor(std::vector<float>& values, int n, const TrainedModel::Impl& model) {
-  torch::Tensor tensor = torch::from_blob(values.data(), batch_sizes(n, model.shape), torch::kFloat32);
-  if (model.channels_last) return tensor.contiguous(channels_last_format(model.shape.dims()));
-  return tensor.clone();
+  // Always a copy that owns its memory: with one channel a plain tensor already counts as
+  // channels-last contiguous, so contiguous() would alias `values`, which autograd may read
+  // after the caller's vector is gone.
+  const torch::Tensor view = torch::from_blob(values.data(), batch_sizes(n, model.shape), torch::kFloat32);
+  if (model.channels_last) return view.clone(channels_last_format(model.shape.dims()));
+  return view.clone();
 }
 
 void normalise_into(const FloatImage& image, const TrainedModel::Impl& model, std::vector<float>& out) {

@@ -237,6 +237,27 @@ TEST(Consistency, CountMapWithUnlabelledImages) {
   EXPECT_NE(without_term.map.voxels(), with_term.map.voxels());
 }
 
+// The consistency term on a probability map (mask) with geometric augmentation: two runs with the
+// same seed and threads give identical bits and a finite loss, so the term reads only memory it
+// owns and nothing depends on thread timing (common practice, no source).
+TEST(Consistency, MaskWithConsistencyIsDeterministic) {
+  const Problem problem = draw_problem(small_scenario(Family::streaks, kSide), 32);
+  const auto labels = buy_labels(problem.train, LabelKind::outline, careful_rater(), kSeed);
+  TrainingSet set = training_set(problem.train, labels);
+  for (std::size_t i = 0; i < 16; ++i) set.add_unlabelled(problem.test[i].image);
+  TrainOptions options = quick_options(Strategy::mask);
+  options.epochs = 2;
+  options.consistency_weight = 1.0;
+  options.augmentation.rotation_degrees = 10.0;
+  options.augmentation.deformation_mm = 1.0;
+  const TrainResult first = train(set, options);
+  const TrainResult second = train(set, options);
+  EXPECT_TRUE(std::isfinite(first.summary.training_loss.back()));
+  EXPECT_EQ(first.summary.training_loss, second.summary.training_loss);
+  EXPECT_EQ(predict(first.model, problem.test.back().image).map.voxels(),
+            predict(second.model, problem.test.back().image).map.voxels());
+}
+
 // Geometric augmentation (rotations up to 10 degrees, 1 mm smooth deformations) keeps mask's
 // clean-outline margin (Dice >= 0.6, learner_test.cpp).
 TEST(Augmentation, MaskKeepsItsMarginWithRotationsAndDeformations) {
