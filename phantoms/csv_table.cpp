@@ -12,7 +12,11 @@
 namespace frugal {
 namespace {
 
-std::string trim(const std::string& text) {
+std::string in_quotes(const std::string& text) { return "\"" + text + "\""; }
+
+}  // namespace
+
+std::string trim_whitespace(const std::string& text) {
   std::size_t begin = 0;
   std::size_t end = text.size();
   while (begin < end && std::isspace(static_cast<unsigned char>(text[begin]))) ++begin;
@@ -20,8 +24,7 @@ std::string trim(const std::string& text) {
   return text.substr(begin, end - begin);
 }
 
-// Splits one line into fields; a field may be double-quoted with "" standing for a quote.
-std::vector<std::string> split_fields(const std::string& line, const std::string& source, int number) {
+std::vector<std::string> split_csv_line(const std::string& line, const std::string& source, int number) {
   std::vector<std::string> fields;
   std::string field;
   bool inside_quotes = false;
@@ -37,11 +40,11 @@ std::vector<std::string> split_fields(const std::string& line, const std::string
       } else {
         field += c;
       }
-    } else if (c == '"' && trim(field).empty()) {
+    } else if (c == '"' && trim_whitespace(field).empty()) {
       inside_quotes = was_quoted = true;
       field.clear();
     } else if (c == ',') {
-      fields.push_back(was_quoted ? field : trim(field));
+      fields.push_back(was_quoted ? field : trim_whitespace(field));
       field.clear();
       was_quoted = false;
     } else {
@@ -51,13 +54,9 @@ std::vector<std::string> split_fields(const std::string& line, const std::string
   if (inside_quotes)
     throw UserError(source + " line " + std::to_string(number) +
                     ": a quoted field is not closed; allowed: fields in double quotes that end on the same line");
-  fields.push_back(was_quoted ? field : trim(field));
+  fields.push_back(was_quoted ? field : trim_whitespace(field));
   return fields;
 }
-
-std::string in_quotes(const std::string& text) { return "\"" + text + "\""; }
-
-}  // namespace
 
 int CsvTable::column(const std::string& name) const {
   const auto found = std::find(columns.begin(), columns.end(), name);
@@ -125,9 +124,9 @@ CsvTable parse_csv_table(std::istream& input, const std::string& source) {
     ++number;
     if (number == 1 && line.rfind("\xEF\xBB\xBF", 0) == 0) line.erase(0, 3);  // UTF-8 byte-order mark
     if (!line.empty() && line.back() == '\r') line.pop_back();
-    const std::string content = trim(line);
+    const std::string content = trim_whitespace(line);
     if (content.empty() || content[0] == '#') continue;
-    std::vector<std::string> fields = split_fields(line, source, number);
+    std::vector<std::string> fields = split_csv_line(line, source, number);
     if (!have_header) {
       for (std::size_t c = 0; c < fields.size(); ++c) {
         if (fields[c].empty())

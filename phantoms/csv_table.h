@@ -39,6 +39,13 @@ struct CsvTable {
 CsvTable read_csv_table(const std::string& path);
 CsvTable parse_csv_table(std::istream& input, const std::string& source);
 
+// One CSV line split into fields: a field may be double-quoted ("" stands for a quote); unquoted
+// fields are trimmed of surrounding white space. Throws UserError "<source> line <number>: ..."
+// when a quoted field is not closed on the line.
+std::vector<std::string> split_csv_line(const std::string& line, const std::string& source, int number);
+// `text` without leading and trailing white space.
+std::string trim_whitespace(const std::string& text);
+
 // `text` as one CSV field: unchanged, or double-quoted when it holds a comma, a quote or a line break.
 std::string csv_field(const std::string& text);
 

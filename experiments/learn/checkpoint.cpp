@@ -150,11 +150,7 @@ void TrainedModel::save(const std::string& path) const {
     if (model.network) {
       model.network->save(partial, meta);
     } else {
-      torch::serialize::OutputArchive archive;
-      archive.write("frugal.meta", torch::from_blob(const_cast<char*>(meta.data()),
-                                                    {static_cast<std::int64_t>(meta.size())}, torch::kUInt8)
-                                       .clone());
-      archive.save_to(partial);
+      internal::save_archive(partial, meta, nullptr);
     }
   } catch (const c10::Error& error) {
     std::filesystem::remove(partial);

@@ -48,6 +48,10 @@ std::unique_ptr<Network> make_unet_network(int dims, int width, int depth, Norma
 // when it cannot be read or does not map a probe batch of `shape` to the same shape.
 std::unique_ptr<Network> load_scripted_network(const std::string& path, const Shape& shape);
 
+// frugal's own checkpoint archive: the module's tensors (none for the classical strategies, which
+// pass null) and the metadata JSON as the uint8 tensor "frugal.meta".
+void save_archive(const std::string& path, const std::string& meta_json, torch::nn::Module* module);
+
 // The same U-shaped network with the weights of a checkpoint written by its save().
 std::unique_ptr<Network> load_unet_network(torch::serialize::InputArchive& archive, int dims, int width, int depth,
                                            Normalization normalization, bool channels_last);

@@ -1,22 +1,25 @@
 // The torch-free half of the learner interface: names, options, the training set and the field.
 #include <algorithm>
 #include <cmath>
-#include <sstream>
 #include <string>
 #include <vector>
 
 #include "experiments/learn/learner.h"
 #include "experiments/measure/connected_components.h"
+#include "phantoms/text_format.h"
 #include "phantoms/user_error.h"
 
 namespace frugal::learn {
 namespace {
 
-struct StrategyName {
-  Strategy strategy;
+// One name per value of an enum: the names users type and files record.
+template <class Enum>
+struct Named {
+  Enum value;
   const char* name;
 };
-constexpr StrategyName kStrategyNames[] = {
+
+constexpr Named<Strategy> kStrategyNames[] = {
     {Strategy::mask, "mask"},
     {Strategy::mask_robust, "mask-robust"},
     {Strategy::partial, "partial"},
@@ -30,39 +33,40 @@ constexpr StrategyName kStrategyNames[] = {
     {Strategy::threshold, "threshold"},
     {Strategy::line_filter, "line-filter"},
 };
-
-struct RobustLossName {
-  RobustLoss loss;
-  const char* name;
-};
-constexpr RobustLossName kRobustLossNames[] = {
+constexpr Named<RobustLoss> kRobustLossNames[] = {
     {RobustLoss::generalized_cross_entropy, "gce"},
     {RobustLoss::bootstrapping, "bootstrap"},
     {RobustLoss::label_smoothing, "smoothing"},
 };
+constexpr Named<Normalization> kNormalizationNames[] = {
+    {Normalization::batch, "batch"},
+    {Normalization::instance, "instance"},
+    {Normalization::none, "none"},
+};
 
-std::string number(double value) {
-  std::ostringstream out;
-  out << value;
-  return out.str();
+template <class Enum, std::size_t N>
+std::string name_of(const Named<Enum> (&table)[N], Enum value) {
+  for (const auto& entry : table)
+    if (entry.value == value) return entry.name;
+  FRUGAL_CHECK(false);
+}
+
+// Throws UserError "unknown <what> '<name>'; allowed: ..." for a name not in the table.
+template <class Enum, std::size_t N>
+Enum value_named(const Named<Enum> (&table)[N], const std::string& name, const char* what) {
+  std::string allowed;
+  for (const auto& entry : table) {
+    if (name == entry.name) return entry.value;
+    allowed += std::string(allowed.empty() ? "" : ", ") + entry.name;
+  }
+  throw UserError(std::string("unknown ") + what + " '" + name + "'; allowed: " + allowed);
 }
 
 }  // namespace
 
-std::string to_string(Strategy strategy) {
-  for (const auto& entry : kStrategyNames)
-    if (entry.strategy == strategy) return entry.name;
-  FRUGAL_CHECK(false);
-}
+std::string to_string(Strategy strategy) { return name_of(kStrategyNames, strategy); }
 
-Strategy strategy_from_string(const std::string& name) {
-  std::string allowed;
-  for (const auto& entry : kStrategyNames) {
-    if (name == entry.name) return entry.strategy;
-    allowed += std::string(allowed.empty() ? "" : ", ") + entry.name;
-  }
-  throw UserError("unknown strategy '" + name + "'; allowed: " + allowed);
-}
+Strategy strategy_from_string(const std::string& name) { return value_named(kStrategyNames, name, "strategy"); }
 
 std::vector<LabelKind> accepted_label_kinds(Strategy strategy) {
   switch (strategy) {
@@ -94,42 +98,21 @@ std::vector<LabelKind> accepted_label_kinds(Strategy strategy) {
 bool is_map_strategy(Strategy strategy) { return strategy != Strategy::scalar && !is_classical(strategy); }
 bool is_classical(Strategy strategy) { return strategy == Strategy::threshold || strategy == Strategy::line_filter; }
 
-std::string to_string(RobustLoss loss) {
-  for (const auto& entry : kRobustLossNames)
-    if (entry.loss == loss) return entry.name;
-  FRUGAL_CHECK(false);
-}
+std::string to_string(RobustLoss loss) { return name_of(kRobustLossNames, loss); }
 
 RobustLoss robust_loss_from_string(const std::string& name) {
-  std::string allowed;
-  for (const auto& entry : kRobustLossNames) {
-    if (name == entry.name) return entry.loss;
-    allowed += std::string(allowed.empty() ? "" : ", ") + entry.name;
-  }
-  throw UserError("unknown robust loss '" + name + "'; allowed: " + allowed);
+  return value_named(kRobustLossNames, name, "robust loss");
 }
 
-std::string to_string(Normalization normalization) {
-  switch (normalization) {
-    case Normalization::batch:
-      return "batch";
-    case Normalization::instance:
-      return "instance";
-    case Normalization::none:
-      return "none";
-  }
-  FRUGAL_CHECK(false);
-}
+std::string to_string(Normalization normalization) { return name_of(kNormalizationNames, normalization); }
 
 Normalization normalization_from_string(const std::string& name) {
-  for (Normalization normalization : {Normalization::batch, Normalization::instance, Normalization::none})
-    if (to_string(normalization) == name) return normalization;
-  throw UserError("unknown normalization '" + name + "'; allowed: batch, instance, none");
+  return value_named(kNormalizationNames, name, "normalization");
 }
 
 std::string FieldOptions::validate() const {
   if (std::isnan(low) || std::isnan(high) || !(low < high))
-    return "train.field.low = " + number(low) + ", high = " + number(high) + ": low must be below high";
+    return "train.field.low = " + format_number(low) + ", high = " + format_number(high) + ": low must be below high";
   return "";
 }
 
@@ -159,39 +142,42 @@ LabelImage estimate_field(const FloatImage& image, const FieldOptions& field) {
 }
 
 std::string TrainOptions::validate() const {
-  if (epochs < 1) return "train.epochs = " + number(epochs) + ": must be at least 1";
-  if (batch_size < 1) return "train.batch_size = " + number(batch_size) + ": must be at least 1";
+  if (epochs < 1) return "train.epochs = " + format_number(epochs) + ": must be at least 1";
+  if (batch_size < 1) return "train.batch_size = " + format_number(batch_size) + ": must be at least 1";
   if (!(learning_rate > 0.0) || !std::isfinite(learning_rate))
-    return "train.learning_rate = " + number(learning_rate) + ": must be a positive number";
+    return "train.learning_rate = " + format_number(learning_rate) + ": must be a positive number";
   if (!(weight_decay >= 0.0) || !std::isfinite(weight_decay))
-    return "train.weight_decay = " + number(weight_decay) + ": must be zero or positive";
-  if (threads < 1 || threads > 256) return "train.threads = " + number(threads) + ": allowed 1 to 256";
+    return "train.weight_decay = " + format_number(weight_decay) + ": must be zero or positive";
+  if (threads < 1 || threads > 256) return "train.threads = " + format_number(threads) + ": allowed 1 to 256";
   if (!(validation_fraction >= 0.0 && validation_fraction < 0.9))
-    return "train.validation_fraction = " + number(validation_fraction) + ": allowed [0, 0.9)";
-  if (patience < 0) return "train.patience = " + number(patience) + ": must be 0 (never stop early) or more";
-  if (width < 1 || width > 256) return "train.width = " + number(width) + ": allowed 1 to 256";
-  if (depth < 1 || depth > 6) return "train.depth = " + number(depth) + ": allowed 1 to 6";
+    return "train.validation_fraction = " + format_number(validation_fraction) + ": allowed [0, 0.9)";
+  if (patience < 0) return "train.patience = " + format_number(patience) + ": must be 0 (never stop early) or more";
+  if (width < 1 || width > 256) return "train.width = " + format_number(width) + ": allowed 1 to 256";
+  if (depth < 1 || depth > 6) return "train.depth = " + format_number(depth) + ": allowed 1 to 6";
   const auto non_negative = [](double value) { return value >= 0.0 && std::isfinite(value); };
-  if (!non_negative(dice_weight)) return "train.dice_weight = " + number(dice_weight) + ": must be zero or positive";
-  if (!(gce_q > 0.0 && gce_q <= 1.0)) return "train.gce_q = " + number(gce_q) + ": allowed (0, 1]";
+  if (!non_negative(dice_weight))
+    return "train.dice_weight = " + format_number(dice_weight) + ": must be zero or positive";
+  if (!(gce_q > 0.0 && gce_q <= 1.0)) return "train.gce_q = " + format_number(gce_q) + ": allowed (0, 1]";
   if (!(bootstrap_beta >= 0.0 && bootstrap_beta <= 1.0))
-    return "train.bootstrap_beta = " + number(bootstrap_beta) + ": allowed [0, 1]";
+    return "train.bootstrap_beta = " + format_number(bootstrap_beta) + ": allowed [0, 1]";
   if (!(label_smoothing >= 0.0 && label_smoothing < 0.5))
-    return "train.label_smoothing = " + number(label_smoothing) + ": allowed [0, 0.5)";
+    return "train.label_smoothing = " + format_number(label_smoothing) + ": allowed [0, 0.5)";
   if (!non_negative(background_prior))
-    return "train.background_prior = " + number(background_prior) + ": must be zero or positive";
+    return "train.background_prior = " + format_number(background_prior) + ": must be zero or positive";
   if (!(pooling_sharpness > 0.0 && pooling_sharpness <= 100.0))
-    return "train.pooling_sharpness = " + number(pooling_sharpness) + ": allowed (0, 100]";
+    return "train.pooling_sharpness = " + format_number(pooling_sharpness) + ": allowed (0, 100]";
   if (!(point_radius_mm >= 0.0 && point_radius_mm <= 50.0))
-    return "train.point_radius_mm = " + number(point_radius_mm) + ": allowed [0, 50]";
+    return "train.point_radius_mm = " + format_number(point_radius_mm) + ": allowed [0, 50]";
   if (!(object_size_min_mm3 >= 0.0 && object_size_min_mm3 < object_size_max_mm3 && std::isfinite(object_size_max_mm3)))
-    return "train.object_size_min_mm3 = " + number(object_size_min_mm3) +
-           ", object_size_max_mm3 = " + number(object_size_max_mm3) + ": need 0 <= min < max";
-  if (!non_negative(mask_weight)) return "train.mask_weight = " + number(mask_weight) + ": must be zero or positive";
-  if (!non_negative(weak_weight)) return "train.weak_weight = " + number(weak_weight) + ": must be zero or positive";
+    return "train.object_size_min_mm3 = " + format_number(object_size_min_mm3) +
+           ", object_size_max_mm3 = " + format_number(object_size_max_mm3) + ": need 0 <= min < max";
+  if (!non_negative(mask_weight))
+    return "train.mask_weight = " + format_number(mask_weight) + ": must be zero or positive";
+  if (!non_negative(weak_weight))
+    return "train.weak_weight = " + format_number(weak_weight) + ": must be zero or positive";
   if (!non_negative(consistency_weight))
-    return "train.consistency_weight = " + number(consistency_weight) + ": must be zero or positive";
-  if (!std::isfinite(threshold_hu)) return "train.threshold_hu = " + number(threshold_hu) + ": must be a number";
+    return "train.consistency_weight = " + format_number(consistency_weight) + ": must be zero or positive";
+  if (!std::isfinite(threshold_hu)) return "train.threshold_hu = " + format_number(threshold_hu) + ": must be a number";
   if (const std::string message = augmentation.validate(); !message.empty()) return message;
   if (const std::string message = line_filter.validate(); !message.empty()) return "train.line_filter." + message;
   if (const std::string message = grading.validate(); !message.empty()) return "train." + message;

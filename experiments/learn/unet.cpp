@@ -141,10 +141,7 @@ class UNetNetwork : public Network {
     return true;
   }
   void save(const std::string& path, const std::string& meta_json) override {
-    torch::serialize::OutputArchive archive;
-    net_->save(archive);
-    archive.write("frugal.meta", text_tensor(meta_json));
-    archive.save_to(path);
+    save_archive(path, meta_json, net_.get());
   }
   void load(torch::serialize::InputArchive& archive) {
     net_->load(archive);
@@ -152,16 +149,20 @@ class UNetNetwork : public Network {
   }
 
  private:
-  static torch::Tensor text_tensor(const std::string& text) {
-    return torch::from_blob(const_cast<char*>(text.data()), {static_cast<std::int64_t>(text.size())}, torch::kUInt8)
-        .clone();
-  }
   UNet net_;
   int dims_;
   bool channels_last_;
 };
 
 }  // namespace
+
+void save_archive(const std::string& path, const std::string& meta_json, torch::nn::Module* module) {
+  torch::serialize::OutputArchive archive;
+  if (module != nullptr) module->save(archive);
+  const auto bytes = static_cast<std::int64_t>(meta_json.size());
+  archive.write("frugal.meta", torch::from_blob(const_cast<char*>(meta_json.data()), {bytes}, torch::kUInt8).clone());
+  archive.save_to(path);
+}
 
 std::unique_ptr<Network> make_unet_network(int dims, int width, int depth, Normalization normalization,
                                            bool channels_last) {

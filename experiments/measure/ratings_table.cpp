@@ -9,6 +9,7 @@
 #include <map>
 #include <sstream>
 
+#include "phantoms/csv_table.h"
 #include "phantoms/user_error.h"
 
 namespace frugal::measure {
@@ -19,55 +20,10 @@ struct Row {
   std::vector<std::string> fields;
 };
 
-std::string trim(const std::string& text) {
-  std::size_t begin = 0;
-  std::size_t end = text.size();
-  while (begin < end && std::isspace(static_cast<unsigned char>(text[begin]))) ++begin;
-  while (end > begin && std::isspace(static_cast<unsigned char>(text[end - 1]))) --end;
-  return text.substr(begin, end - begin);
-}
-
 std::string lower(std::string text) {
   std::transform(text.begin(), text.end(), text.begin(),
                  [](unsigned char c) { return static_cast<char>(std::tolower(c)); });
   return text;
-}
-
-// Splits one CSV line; a field may be double-quoted with "" standing for a quote.
-std::vector<std::string> split_fields(const std::string& line, const std::string& source, int number) {
-  std::vector<std::string> fields;
-  std::string field;
-  bool inside_quotes = false;
-  bool was_quoted = false;
-  for (std::size_t i = 0; i < line.size(); ++i) {
-    const char c = line[i];
-    if (inside_quotes) {
-      if (c == '"' && i + 1 < line.size() && line[i + 1] == '"') {
-        field += '"';
-        ++i;
-      } else if (c == '"') {
-        inside_quotes = false;
-      } else {
-        field += c;
-      }
-    } else if (c == '"' && trim(field).empty()) {
-      inside_quotes = was_quoted = true;
-      field.clear();
-    } else if (c == ',') {
-      fields.push_back(was_quoted ? field : trim(field));
-      field.clear();
-      was_quoted = false;
-    } else {
-      field += c;
-    }
-  }
-  if (inside_quotes) {
-    throw UserError(source + " line " + std::to_string(number) +
-                    ": a quoted field is not closed; allowed: fields in double quotes that end "
-                    "on the same line");
-  }
-  fields.push_back(was_quoted ? field : trim(field));
-  return fields;
 }
 
 std::vector<Row> read_rows(std::istream& input, const std::string& source) {
@@ -78,9 +34,9 @@ std::vector<Row> read_rows(std::istream& input, const std::string& source) {
     ++number;
     if (number == 1 && line.rfind("\xEF\xBB\xBF", 0) == 0) line.erase(0, 3);  // UTF-8 mark
     if (!line.empty() && line.back() == '\r') line.pop_back();
-    const std::string content = trim(line);
+    const std::string content = trim_whitespace(line);
     if (content.empty() || content[0] == '#') continue;
-    rows.push_back({number, split_fields(line, source, number)});
+    rows.push_back({number, split_csv_line(line, source, number)});
   }
   return rows;
 }
@@ -91,8 +47,9 @@ std::string cell_place(const std::string& source, int line, int column, const st
 
 double parse_rating(const std::string& text, const std::string& place) {
   if (text.empty()) {
-    throw UserError(place + ": the rating is missing; every subject needs a rating from every "
-                            "rater: fill the cell or remove the subject");
+    throw UserError(place +
+                    ": the rating is missing; every subject needs a rating from every "
+                    "rater: fill the cell or remove the subject");
   }
   double value = 0.0;
   const char* begin = text.data();
@@ -104,12 +61,14 @@ double parse_rating(const std::string& text, const std::string& place) {
                     " is not a number; allowed: a decimal number such as 3, -1 or 2.5");
   }
   if (!std::isfinite(value)) {
-    throw UserError(place + ": " + in_quotes(text) + " is not a finite number; allowed: a decimal "
-                            "number such as 3, -1 or 2.5");
+    throw UserError(place + ": " + in_quotes(text) +
+                    " is not a finite number; allowed: a decimal "
+                    "number such as 3, -1 or 2.5");
   }
   if (std::fabs(value) > kLargestRating) {
-    throw UserError(place + ": " + in_quotes(text) + " is too large in magnitude for the sums of "
-                            "squares; allowed: a number from -1e150 to 1e150");
+    throw UserError(place + ": " + in_quotes(text) +
+                    " is too large in magnitude for the sums of "
+                    "squares; allowed: a number from -1e150 to 1e150");
   }
   return value;
 }
@@ -117,8 +76,7 @@ double parse_rating(const std::string& text, const std::string& place) {
 bool is_long_header(const std::vector<std::string>& header) {
   if (header.size() != 3) return false;
   const std::string value = lower(header[2]);
-  return lower(header[0]) == "subject" && lower(header[1]) == "rater" &&
-         (value == "value" || value == "rating");
+  return lower(header[0]) == "subject" && lower(header[1]) == "rater" && (value == "value" || value == "rating");
 }
 
 void read_wide(const std::vector<Row>& rows, RatingsTable& table) {
@@ -127,8 +85,8 @@ void read_wide(const std::vector<Row>& rows, RatingsTable& table) {
   for (std::size_t c = 1; c < columns; ++c) {
     std::string name = header.fields[c].empty() ? "column " + std::to_string(c + 1) : header.fields[c];
     if (std::find(table.raters.begin(), table.raters.end(), name) != table.raters.end()) {
-      throw UserError(table.source + " line " + std::to_string(header.line) + ", column " +
-                      std::to_string(c + 1) + ": rater " + in_quotes(name) +
+      throw UserError(table.source + " line " + std::to_string(header.line) + ", column " + std::to_string(c + 1) +
+                      ": rater " + in_quotes(name) +
                       " appears twice in the header; allowed: one column per rater, each with its own name");
     }
     table.raters.push_back(name);
@@ -208,10 +166,9 @@ void read_long(const std::vector<Row>& rows, RatingsTable& table) {
     const double value = parse_rating(row.fields[2], cell_place(table.source, row.line, 3, header.fields[2]));
     const auto [cell, inserted] = cells.try_emplace({subject->second, rater->second}, Cell{value, row.line});
     if (!inserted) {
-      throw UserError(table.source + " line " + std::to_string(row.line) + ": subject " +
-                      in_quotes(row.fields[0]) + " already has a rating from rater " + in_quotes(row.fields[1]) +
-                      " on line " + std::to_string(cell->second.line) +
-                      "; allowed: one rating per subject and rater");
+      throw UserError(table.source + " line " + std::to_string(row.line) + ": subject " + in_quotes(row.fields[0]) +
+                      " already has a rating from rater " + in_quotes(row.fields[1]) + " on line " +
+                      std::to_string(cell->second.line) + "; allowed: one rating per subject and rater");
     }
   }
   const auto subjects = static_cast<Eigen::Index>(table.subjects.size());
@@ -223,7 +180,8 @@ void read_long(const std::vector<Row>& rows, RatingsTable& table) {
       if (found == cells.end()) {
         throw UserError(table.source + " line " + std::to_string(subject_first_line[s]) + ": subject " +
                         in_quotes(table.subjects[s]) + " (first seen here) has no rating from rater " +
-                        in_quotes(table.raters[r]) + "; every subject needs a rating from every rater: "
+                        in_quotes(table.raters[r]) +
+                        "; every subject needs a rating from every rater: "
                         "add the row or remove the subject");
       }
       table.ratings(static_cast<Eigen::Index>(s), static_cast<Eigen::Index>(r)) = found->second.value;
@@ -259,21 +217,22 @@ std::vector<double> RatingsTable::rater_column(int rater) const {
   return column;
 }
 
-RatingsTable parse_ratings_table(std::istream& input, const std::string& source,
-                                 const RatingsTableOptions& options) {
+RatingsTable parse_ratings_table(std::istream& input, const std::string& source, const RatingsTableOptions& options) {
   if (const std::string problem = options.validate(); !problem.empty()) throw UserError(problem);
   const std::vector<Row> rows = read_rows(input, source);
   RatingsTable table;
   table.source = source;
   if (rows.empty()) {
-    throw UserError(source + ": the table is empty; allowed: a header line, then one row per "
-                             "subject (wide: subject,rater1,rater2,...) or per rating (long: subject,rater,value)");
+    throw UserError(source +
+                    ": the table is empty; allowed: a header line, then one row per "
+                    "subject (wide: subject,rater1,rater2,...) or per rating (long: subject,rater,value)");
   }
   const Row& header = rows.front();
   table.layout = is_long_header(header.fields) ? TableLayout::long_form : TableLayout::wide;
   if (table.layout == TableLayout::wide && header.fields.size() < 2) {
     throw UserError(source + " line " + std::to_string(header.line) + ": the header has " +
-                    std::to_string(header.fields.size()) + " column; allowed: a subject id column "
+                    std::to_string(header.fields.size()) +
+                    " column; allowed: a subject id column "
                     "followed by one column per rater, or the long header subject,rater,value");
   }
   if (table.layout == TableLayout::wide) {
@@ -287,22 +246,23 @@ RatingsTable parse_ratings_table(std::istream& input, const std::string& source,
   if (raters < options.minimum_raters) {
     std::ostringstream message;
     message << source << " line " << header.line << ": found " << raters << " rater"
-            << (raters == 1 ? " (" + in_quotes(table.raters.front()) + ")" : std::string("s"))
-            << "; allowed: at least " << options.minimum_raters << " raters ("
-            << (table.layout == TableLayout::wide ? "columns after the subject id" : "distinct names in the rater column")
+            << (raters == 1 ? " (" + in_quotes(table.raters.front()) + ")" : std::string("s")) << "; allowed: at least "
+            << options.minimum_raters << " raters ("
+            << (table.layout == TableLayout::wide ? "columns after the subject id"
+                                                  : "distinct names in the rater column")
             << ")";
     throw UserError(message.str());
   }
   if (subjects < options.minimum_subjects) {
     std::ostringstream message;
-    message << source << ": found " << subjects << " subject" << (subjects == 1 ? "" : "s")
-            << "; allowed: at least " << options.minimum_subjects << " subjects rated by every rater";
+    message << source << ": found " << subjects << " subject" << (subjects == 1 ? "" : "s") << "; allowed: at least "
+            << options.minimum_subjects << " subjects rated by every rater";
     throw UserError(message.str());
   }
   if (options.reject_constant && (table.ratings.array() == table.ratings(0, 0)).all()) {
     std::ostringstream message;
-    message << source << " lines " << rows[1].line << "-" << rows.back().line << ": all "
-            << table.ratings.size() << " ratings equal " << table.ratings(0, 0)
+    message << source << " lines " << rows[1].line << "-" << rows.back().line << ": all " << table.ratings.size()
+            << " ratings equal " << table.ratings(0, 0)
             << "; agreement statistics are undefined without any variation; allowed: a table in "
                "which at least two ratings differ";
     throw UserError(message.str());
@@ -318,8 +278,9 @@ RatingsTable read_ratings_table(const std::string& path, const RatingsTableOptio
     throw UserError(path + ": is a directory, not a ratings table; allowed: a CSV file");
   }
   if (std::filesystem::exists(status) && !std::filesystem::is_regular_file(status)) {
-    throw UserError(path + ": is not a regular file (a device, pipe or socket), not a ratings table; "
-                           "allowed: a CSV file");
+    throw UserError(path +
+                    ": is not a regular file (a device, pipe or socket), not a ratings table; "
+                    "allowed: a CSV file");
   }
   std::ifstream file(path, std::ios::binary);
   if (!file) {

@@ -5,6 +5,7 @@ that is removed afterwards."""
 import argparse
 import csv
 import os
+import subprocess
 import sys
 import tempfile
 import unittest
@@ -14,6 +15,16 @@ def read_table(path):
     """Rows of a frugal CSV table as dicts; lines starting with '#' are version comments."""
     with open(path, newline="") as table:
         return list(csv.DictReader(line for line in table if not line.startswith("#")))
+
+
+def run_frugal(frugal, *args, expect=0):
+    """Runs the frugal executable with `args`; raises AssertionError with both output streams when
+    the exit code is not `expect`."""
+    result = subprocess.run([frugal, *map(str, args)], capture_output=True, text=True)
+    if result.returncode != expect:
+        raise AssertionError(f"frugal {' '.join(map(str, args))} exited {result.returncode}, expected {expect}:\n"
+                             f"{result.stdout}\n{result.stderr}")
+    return result
 
 
 def run_suite(description, scratch_prefix, configure):

@@ -9,13 +9,12 @@ Run by CTest as: /usr/bin/python3 labels_cli_test.py --frugal PATH --source REPO
 import glob
 import json
 import os
-import subprocess
 import unittest
 
 import nibabel as nib
 import numpy as np
 
-from frugal_testing import read_table, run_suite
+from frugal_testing import read_table, run_frugal, run_suite
 
 FRUGAL = None
 SOURCE = None
@@ -27,11 +26,7 @@ KINDS = ["presence", "count", "grade", "points", "partial", "outline"]
 
 
 def run(*args, expect=0):
-    result = subprocess.run([FRUGAL, *map(str, args)], capture_output=True, text=True)
-    if result.returncode != expect:
-        raise AssertionError(f"frugal {' '.join(map(str, args))} exited {result.returncode}, expected {expect}:\n"
-                             f"{result.stdout}\n{result.stderr}")
-    return result
+    return run_frugal(FRUGAL, *args, expect=expect)
 
 
 def small_scenario(family):

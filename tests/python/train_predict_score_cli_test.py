@@ -9,7 +9,6 @@ Run by CTest as: /usr/bin/python3 train_predict_score_cli_test.py --frugal PATH 
 
 import json
 import os
-import subprocess
 import unittest
 
 import nibabel as nib
@@ -17,7 +16,7 @@ import numpy as np
 from scipy import stats
 from sklearn.metrics import roc_auc_score
 
-from frugal_testing import read_table, run_suite
+from frugal_testing import read_table, run_frugal, run_suite
 
 FRUGAL = None
 SOURCE = None
@@ -31,11 +30,7 @@ TINY = ["--epochs", 2, "--width", 4, "--depth", 2, "--batch-size", 8, "--threads
 
 
 def run(*args, expect=0):
-    result = subprocess.run([FRUGAL, *map(str, args)], capture_output=True, text=True)
-    if result.returncode != expect:
-        raise AssertionError(f"frugal {' '.join(map(str, args))} exited {result.returncode}, expected {expect}:\n"
-                             f"{result.stdout}\n{result.stderr}")
-    return result
+    return run_frugal(FRUGAL, *args, expect=expect)
 
 
 def path(*parts):

@@ -7,6 +7,8 @@
 #include <algorithm>
 #include <cmath>
 #include <cstdio>
+#include <cstdlib>
+#include <string>
 #include <vector>
 
 #include "experiments/baselines/line_filter.h"
@@ -296,11 +298,18 @@ TEST(Threshold, PredictsTheBaselineFraction) {
   options.field.high = -400.0;
   options.field.drop_border_connected = true;
   const TrainResult result = train(TrainingSet{}, options);
+  // A checkpoint of a classical strategy holds only its options; it predicts the same.
+  const std::string path = std::string(std::getenv("TEST_TMPDIR") ? std::getenv("TEST_TMPDIR") : ".") +
+                           "/threshold_checkpoint.pt";
+  result.model.save(path);
+  const TrainedModel loaded = TrainedModel::load(path);
+  EXPECT_EQ(loaded.strategy(), Strategy::threshold);
   for (const Subject& subject : subjects) {
     const Prediction prediction = predict(result.model, subject.image);
     const auto expected =
         baselines::threshold_densitometry(subject.image, estimate_field(subject.image, options.field));
     EXPECT_EQ(prediction.affected_fraction, expected.fraction);
+    EXPECT_EQ(predict(loaded, subject.image).affected_fraction, expected.fraction);
   }
 }
 
