@@ -15,5 +15,9 @@ void add_calibrate_command(CLI::App& app);
 void add_train_command(CLI::App& app);
 void add_predict_command(CLI::App& app);
 void add_score_command(CLI::App& app);
+void add_run_command(CLI::App& app);
+void add_merge_command(CLI::App& app);
+void add_export_command(CLI::App& app);
+void add_demo_command(CLI::App& app);
 
 }  // namespace frugal::cli

@@ -106,6 +106,16 @@ std::string format_report(const scoring::ScoreReport& report) {
     if (m.images > 0)
       for (const std::string& note : m.notes) notes += "  maps: " + note + "\n";
   }
+  if (!report.repeatability.empty()) {
+    out += "\nrepeatability over rescans (first acquisitions above; Bland & Altman 1996):\n";
+    for (const scoring::RepeatabilityScore& r : report.repeatability) {
+      out += "  " + padded(r.quantity, 22, false) + "coefficient " + cell(r.coefficient) + " [" +
+             cell(r.coefficient_lower) + ", " + cell(r.coefficient_upper) + "], within-subject SD " +
+             cell(r.within_subject_sd) + " (" + std::to_string(r.subjects) + " subjects x " +
+             std::to_string(r.acquisitions) + " acquisitions; truth repeats exactly)\n";
+      for (const std::string& note : r.notes) notes += "  " + r.quantity + ": " + note + "\n";
+    }
+  }
   if (!notes.empty()) out += "\nnotes:\n" + notes;
   out += "\nScores on synthetic phantoms; they do not validate a method for clinical use.\n";
   return out;

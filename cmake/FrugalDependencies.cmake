@@ -6,6 +6,8 @@ find_package(yaml-cpp REQUIRED)
 find_package(CLI11 REQUIRED)
 find_package(nlohmann_json 3 REQUIRED)
 find_package(ZLIB REQUIRED)
+find_package(SQLite3 REQUIRED)
+find_package(OpenSSL REQUIRED COMPONENTS Crypto)  # SHA-256 of cell and study keys
 
 # Debian 12's NIfTI CMake config names a library path that does not exist, so locate the
 # headers and libraries directly.

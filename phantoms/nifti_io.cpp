@@ -3,12 +3,16 @@
 #include <nifti1_io.h>
 #include <zlib.h>
 
+#include <algorithm>
 #include <cmath>
 #include <cstdio>
+#include <cstdlib>
+#include <cstring>
 #include <filesystem>
 #include <memory>
 #include <vector>
 
+#include "phantoms/regular_file.h"
 #include "phantoms/user_error.h"
 
 namespace frugal {
@@ -55,8 +59,8 @@ void write_any(const Image<Voxel>& image, const std::string& path, int datatype)
   nim->sto_xyz = affine;
   nim->sto_ijk = nifti_mat44_inverse(affine);
   float dx = 0, dy = 0, dz = 0;
-  nifti_mat44_to_quatern(affine, &nim->quatern_b, &nim->quatern_c, &nim->quatern_d, &nim->qoffset_x,
-                         &nim->qoffset_y, &nim->qoffset_z, &dx, &dy, &dz, &nim->qfac);
+  nifti_mat44_to_quatern(affine, &nim->quatern_b, &nim->quatern_c, &nim->quatern_d, &nim->qoffset_x, &nim->qoffset_y,
+                         &nim->qoffset_z, &dx, &dy, &dz, &nim->qfac);
   nim->qto_xyz = affine;
   nim->qto_ijk = nim->sto_ijk;
   std::snprintf(nim->descrip, sizeof(nim->descrip), "frugal phantom");
@@ -79,38 +83,125 @@ std::uintmax_t decompressed_size(const std::string& path) {
   std::vector<char> buffer(1 << 16);
   std::uintmax_t total = 0;
   int got = 0;
-  while ((got = gzread(file, buffer.data(), static_cast<unsigned>(buffer.size()))) > 0) total += static_cast<std::uintmax_t>(got);
+  while ((got = gzread(file, buffer.data(), static_cast<unsigned>(buffer.size()))) > 0)
+    total += static_cast<std::uintmax_t>(got);
   int status = Z_OK;
   const std::string reason = gzerror(file, &status);
   gzclose(file);
   if (got < 0 || (status != Z_OK && status != Z_STREAM_END))
-    throw UserError(path + ": the compressed data is damaged or cut short after " + std::to_string(total) +
-                    " bytes (" + reason + ")");
+    throw UserError(path + ": the compressed data is damaged or cut short after " + std::to_string(total) + " bytes (" +
+                    reason + ")");
   return total;
 }
 
+bool ends_with(const std::string& text, const std::string& suffix) {
+  return text.size() > suffix.size() && text.compare(text.size() - suffix.size(), suffix.size(), suffix) == 0;
+}
+
+const char* const kAllowedFile = "a NIfTI-1 file (.nii or .nii.gz)";
+
+// The NIfTI-1 rules (nifti1.h) frugal relies on, checked on the raw header before the library
+// derives anything from it: the library itself accepts a wrong magic, a bitpix that disagrees
+// with the datatype, negative dims, NaN offsets and zero spacing.
+void check_header(const nifti_1_header& header, const std::string& path) {
+  const auto fail = [&path](const std::string& message) { throw UserError(path + ": NIfTI header: " + message); };
+  if (header.sizeof_hdr != 348)
+    fail("sizeof_hdr is " + std::to_string(header.sizeof_hdr) + "; allowed: 348 (NIfTI-1; NIfTI-2 is not read)");
+  const std::string magic(header.magic, strnlen(header.magic, sizeof(header.magic)));
+  if (magic != "n+1") {
+    fail("magic is '" + magic + "'" + (magic == "ni1" ? " (the header of a .hdr/.img pair)" : std::string()) +
+         "; allowed: 'n+1', a single .nii file");
+  }
+  if (header.dim[0] < 1 || header.dim[0] > 7)
+    fail("dim[0] is " + std::to_string(header.dim[0]) + "; allowed: 1..7 dimensions");
+  for (int axis = 1; axis <= header.dim[0]; ++axis)
+    if (header.dim[axis] < 1)
+      fail("dim[" + std::to_string(axis) + "] is " + std::to_string(header.dim[axis]) + "; allowed: a positive length");
+  if (nifti_is_valid_datatype(header.datatype) == 0)
+    fail("datatype " + std::to_string(header.datatype) +
+         " is not a NIfTI-1 data type; allowed: " + "uint8, int8, int16, uint16, int32, float32, float64");
+  int bytes_per_voxel = 0;
+  int swap_size = 0;
+  nifti_datatype_sizes(header.datatype, &bytes_per_voxel, &swap_size);
+  if (header.bitpix != 8 * bytes_per_voxel)
+    fail("bitpix is " + std::to_string(header.bitpix) + " but datatype " +
+         std::string(nifti_datatype_string(header.datatype)) + " has " + std::to_string(8 * bytes_per_voxel) +
+         " bits per voxel; allowed: bitpix matching the datatype");
+  for (int axis = 1; axis <= std::min<int>(header.dim[0], 3); ++axis) {
+    const float spacing = header.pixdim[axis];
+    if (!std::isfinite(spacing) || spacing <= 0.0F)
+      fail("pixdim[" + std::to_string(axis) + "] (voxel spacing) is " + std::to_string(spacing) +
+           "; allowed: a finite spacing > 0");
+  }
+  // The library reads the data from byte 348 when vox_offset is below 352 or NaN, 4 bytes early.
+  if (!std::isfinite(header.vox_offset) || header.vox_offset < 352.0F || header.vox_offset > 2147483647.0F)
+    fail("vox_offset is " + std::to_string(header.vox_offset) +
+         "; allowed: a byte offset of at least 352 (the data follows the 348-byte header and its 4-byte extension "
+         "flag)");
+}
+
+// The voxel bytes as stored. The library's own loader replaces NaN and infinite floats with 0
+// without a word, which would hide a broken image; frugal reads them itself and refuses them later.
+void load_voxels(nifti_image& nim, const std::string& path) {
+  const std::size_t bytes = nim.nvox * static_cast<std::size_t>(nim.nbyper);
+  std::unique_ptr<void, decltype(&std::free)> data(std::malloc(bytes == 0 ? 1 : bytes), &std::free);
+  if (!data) throw UserError(path + ": not enough memory for " + std::to_string(bytes) + " bytes of voxel data");
+  znzFile file = znzopen(path.c_str(), "rb", ends_with(path, ".gz") ? 1 : 0);
+  if (znz_isnull(file)) throw UserError(path + ": cannot open for reading");
+  // fseek returns 0 and gzseek the new offset on success; both return -1 on failure.
+  const bool read = znzseek(file, nim.iname_offset, SEEK_SET) >= 0 && znzread(data.get(), 1, bytes, file) == bytes;
+  znzclose(file);
+  if (!read) throw UserError(path + ": the image data cannot be read (truncated or corrupt file)");
+  if (nim.byteorder != nifti_short_order() && nim.swapsize > 1)
+    nifti_swap_Nbytes(bytes / static_cast<std::size_t>(nim.swapsize), nim.swapsize, data.get());
+  std::free(nim.data);
+  nim.data = data.release();  // owned by nim now: nifti_image_free releases it with free()
+}
+
 NiftiPointer read_checked(const std::string& path) {
-  std::error_code error;
-  if (!std::filesystem::is_regular_file(path, error)) throw UserError(path + ": no such NIfTI file");
-  if (nifti_is_complete_filename(path.c_str()) == 0)
-    throw UserError(path + ": not a NIfTI file name (expected .nii or .nii.gz)");
+  require_regular_file(path, kAllowedFile);
+  if (!ends_with(path, ".nii") && !ends_with(path, ".nii.gz"))
+    throw UserError(path + ": not a NIfTI file name; allowed: " + kAllowedFile);
+  // frugal reports every problem itself; the library would also print its own lines on stderr.
+  nifti_set_debug_level(0);
+  int swapped = 0;
+  const std::unique_ptr<nifti_1_header, decltype(&std::free)> raw(nifti_read_header(path.c_str(), &swapped, 0),
+                                                                  &std::free);
+  if (!raw)
+    throw UserError(path + ": not a readable NIfTI-1 file (no complete 348-byte header); allowed: " + kAllowedFile);
+  check_header(*raw, path);
   NiftiPointer header(nifti_image_read(path.c_str(), 0));
-  if (!header) throw UserError(path + ": not a readable NIfTI-1 file (bad or truncated header)");
-  if (header->dim[0] < 2 || header->dim[0] > 3 || header->nt > 1)
-    throw UserError(path + ": has " + std::to_string(header->dim[0]) +
-                    " dimensions; frugal reads 2D and 3D images (a 4th dimension of 1 at most)");
+  if (!header) throw UserError(path + ": not a readable NIfTI-1 file (bad header); allowed: " + kAllowedFile);
+  if (header->dim[0] < 2) throw UserError(path + ": has 1 dimension; allowed: 2D and 3D images");
+  for (int axis = 4; axis <= header->dim[0]; ++axis)
+    if (header->dim[axis] != 1)
+      throw UserError(path + ": has " + std::to_string(header->dim[0]) + " dimensions (dim[" + std::to_string(axis) +
+                      "] is " + std::to_string(header->dim[axis]) +
+                      "); allowed: 2D and 3D images (later dimensions of length 1)");
+  const mat44& affine = header->sform_code > 0 ? header->sto_xyz : header->qto_xyz;
+  for (const auto& row : affine.m)
+    for (const float value : row)
+      if (!std::isfinite(value))
+        throw UserError(path + ": NIfTI header: the " + std::string(header->sform_code > 0 ? "sform" : "qform") +
+                        " voxel-to-mm transform is not finite; allowed: finite srow_x/y/z or quatern_b/c/d, "
+                        "qoffset_x/y/z");
   const auto expected = static_cast<std::uintmax_t>(header->iname_offset) +
                         static_cast<std::uintmax_t>(header->nvox) * static_cast<std::uintmax_t>(header->nbyper);
-  const bool compressed = path.size() > 3 && path.compare(path.size() - 3, 3, ".gz") == 0;
-  // The NIfTI library fills missing data with zeros and carries on, so check the length first.
-  const std::uintmax_t available = compressed ? decompressed_size(path) : std::filesystem::file_size(path, error);
+  // The NIfTI library fills missing data with zeros and carries on, so check the length first; a
+  // longer file usually means a datatype that disagrees with the data written.
+  std::error_code error;
+  const std::uintmax_t available =
+      ends_with(path, ".gz") ? decompressed_size(path) : std::filesystem::file_size(path, error);
   if (available < expected)
-    throw UserError(path + ": truncated: the header promises " + std::to_string(expected) + " bytes, the file holds " +
-                    std::to_string(available));
-  NiftiPointer full(nifti_image_read(path.c_str(), 1));
-  if (!full || full->data == nullptr)
-    throw UserError(path + ": the image data cannot be read (truncated or corrupt file)");
-  return full;
+    throw UserError(path + ": truncated: the header (dims and datatype " +
+                    std::string(nifti_datatype_string(header->datatype)) + ") promises " + std::to_string(expected) +
+                    " bytes, the file holds " + std::to_string(available) + "; allowed: a complete file");
+  if (available > expected)
+    throw UserError(path + ": holds " + std::to_string(available) + " bytes but the header (dims and datatype " +
+                    std::string(nifti_datatype_string(header->datatype)) + ") accounts for " +
+                    std::to_string(expected) + "; allowed: a file whose size matches its header");
+  load_voxels(*header, path);
+  return header;
 }
 
 Geometry geometry_of(const nifti_image& nim) {
@@ -133,13 +224,27 @@ void convert(const nifti_image& nim, Out* out, const std::string& path) {
   const auto scaled = [&](double v) { return static_cast<Out>(v * slope + intercept); };
   const std::size_t n = nim.nvox;
   switch (nim.datatype) {
-    case DT_UINT8: for (std::size_t i = 0; i < n; ++i) out[i] = scaled(static_cast<const std::uint8_t*>(nim.data)[i]); break;
-    case DT_INT8: for (std::size_t i = 0; i < n; ++i) out[i] = scaled(static_cast<const std::int8_t*>(nim.data)[i]); break;
-    case DT_INT16: for (std::size_t i = 0; i < n; ++i) out[i] = scaled(static_cast<const std::int16_t*>(nim.data)[i]); break;
-    case DT_UINT16: for (std::size_t i = 0; i < n; ++i) out[i] = scaled(static_cast<const std::uint16_t*>(nim.data)[i]); break;
-    case DT_INT32: for (std::size_t i = 0; i < n; ++i) out[i] = scaled(static_cast<const std::int32_t*>(nim.data)[i]); break;
-    case DT_FLOAT32: for (std::size_t i = 0; i < n; ++i) out[i] = scaled(static_cast<const float*>(nim.data)[i]); break;
-    case DT_FLOAT64: for (std::size_t i = 0; i < n; ++i) out[i] = scaled(static_cast<const double*>(nim.data)[i]); break;
+    case DT_UINT8:
+      for (std::size_t i = 0; i < n; ++i) out[i] = scaled(static_cast<const std::uint8_t*>(nim.data)[i]);
+      break;
+    case DT_INT8:
+      for (std::size_t i = 0; i < n; ++i) out[i] = scaled(static_cast<const std::int8_t*>(nim.data)[i]);
+      break;
+    case DT_INT16:
+      for (std::size_t i = 0; i < n; ++i) out[i] = scaled(static_cast<const std::int16_t*>(nim.data)[i]);
+      break;
+    case DT_UINT16:
+      for (std::size_t i = 0; i < n; ++i) out[i] = scaled(static_cast<const std::uint16_t*>(nim.data)[i]);
+      break;
+    case DT_INT32:
+      for (std::size_t i = 0; i < n; ++i) out[i] = scaled(static_cast<const std::int32_t*>(nim.data)[i]);
+      break;
+    case DT_FLOAT32:
+      for (std::size_t i = 0; i < n; ++i) out[i] = scaled(static_cast<const float*>(nim.data)[i]);
+      break;
+    case DT_FLOAT64:
+      for (std::size_t i = 0; i < n; ++i) out[i] = scaled(static_cast<const double*>(nim.data)[i]);
+      break;
     default:
       throw UserError(path + ": NIfTI data type " + std::to_string(nim.datatype) +
                       " is not supported; allowed: uint8, int8, int16, uint16, int32, float32, float64");
@@ -155,6 +260,20 @@ FloatImage read_nifti_image(const std::string& path) {
   const NiftiPointer nim = read_checked(path);
   FloatImage image(geometry_of(*nim));
   convert(*nim, image.data(), path);
+  // NaN or infinite intensities (stored, or from scaling) would poison every sum downstream.
+  std::size_t bad = 0;
+  std::size_t first = 0;
+  const std::size_t n = image.voxels().size();
+  for (std::size_t i = 0; i < n; ++i)
+    if (!std::isfinite(image.data()[i]) && bad++ == 0) first = i;
+  if (bad > 0) {
+    const auto nx = static_cast<std::size_t>(image.shape().x);
+    const auto ny = static_cast<std::size_t>(image.shape().y);
+    throw UserError(path + ": " + std::to_string(bad) + " of " + std::to_string(n) +
+                    " voxels are not finite (NaN or infinite), the first at voxel (" + std::to_string(first % nx) +
+                    ", " + std::to_string(first / nx % ny) + ", " + std::to_string(first / (nx * ny)) +
+                    "); allowed: finite intensities");
+  }
   return image;
 }
 

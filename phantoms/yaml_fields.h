@@ -9,13 +9,19 @@
 #include <map>
 #include <set>
 #include <string>
+#include <utility>
 #include <vector>
 
 namespace frugal {
 
+// Lists and mappings nest at most this deep in a YAML file; frugal's own files need about 4
+// levels, and the limit keeps hostile input away from the YAML library's recursive parser.
+constexpr int kMaxYamlDepth = 64;
+
 class YamlFields {
  public:
-  // `path` is the key path of this mapping ("" at the top), used in messages.
+  // `path` is the key path of this mapping ("" at the top), used in messages. Rejects a node that
+  // is not a mapping, keys that are not plain text and keys that appear twice.
   YamlFields(const YAML::Node& node, std::string file, std::string path);
 
   // Also records `key` as allowed here, for the message about unknown keys.
@@ -23,9 +29,11 @@ class YamlFields {
   YamlFields child(const std::string& key);  // the key must hold a mapping
   const YAML::Node& node() const { return node_; }
 
+  // Numbers must be plain decimal text: quoted numbers ("2"), hex (0x10), octal and .inf/.nan
+  // are refused, as are integers outside int and numbers that overflow a double.
   void read(const std::string& key, double& value);
   void read(const std::string& key, int& value);
-  void read(const std::string& key, bool& value);
+  void read(const std::string& key, bool& value);  // unquoted true/false (YAML's yes/no/on/off too)
   void read(const std::string& key, std::string& value);
   template <std::size_t N>
   void read(const std::string& key, std::array<double, N>& value);
@@ -42,25 +50,31 @@ class YamlFields {
   void finish();
 
   // "file:line: key path" for messages about the value of `key` (or this mapping when empty).
+  // The line is the key's own line, not its value's (a block value starts on the next line).
   std::string where(const std::string& key = "") const;
   [[noreturn]] void fail(const std::string& key, const std::string& message) const;
 
  private:
   const YAML::Node& value_node(const std::string& key);
   std::string key_path(const std::string& key) const;
-  template <class T>
-  T scalar_as(const std::string& key, const char* type_name);
+  // The value of `key` (or its list entry `entry`, 1-based, when non-zero) as a number.
+  double number_at(const std::string& key, const YAML::Node& value, std::size_t entry) const;
+  int integer_at(const std::string& key, const YAML::Node& value, std::size_t entry) const;
 
   YAML::Node node_;
   std::string file_;
   std::string path_;
-  std::vector<std::string> known_keys_;
+  YAML::Mark mark_;  // where this mapping's key is (its first entry at the top level)
+  std::vector<std::pair<std::string, YAML::Mark>> known_keys_;  // in file order, with each key's place
   std::set<std::string> read_keys_;
   mutable std::set<std::string> allowed_keys_;  // every key a reader asked for
   YAML::Node scratch_;
 };
 
-// Loads a YAML file whose top level must be a mapping; syntax errors name the file and line.
+// Loads a YAML file whose top level must be a mapping. Refuses up front what is not a regular
+// file (a pipe would block), then, before any node is built: a second document, keys that repeat
+// in one mapping or are not plain text, and nesting deeper than kMaxYamlDepth. Syntax errors
+// name the file and line.
 YAML::Node load_yaml_file(const std::string& file);
 
 // 1-based line of a dotted key path ("streaks.count.mean") in `node`, so that validate()
@@ -72,30 +86,16 @@ template <std::size_t N>
 void YamlFields::read(const std::string& key, std::array<double, N>& value) {
   if (!has(key)) return;
   const YAML::Node& list = value_node(key);
-  if (!list.IsSequence() || list.size() != N)
-    fail(key, "must be a list of " + std::to_string(N) + " numbers");
-  for (std::size_t i = 0; i < N; ++i) {
-    try {
-      value[i] = list[i].as<double>();
-    } catch (const YAML::Exception&) {
-      fail(key, "entry " + std::to_string(i + 1) + " is not a number");
-    }
-  }
+  if (!list.IsSequence() || list.size() != N) fail(key, "must be a list of " + std::to_string(N) + " numbers");
+  for (std::size_t i = 0; i < N; ++i) value[i] = number_at(key, list[i], i + 1);
 }
 
 template <std::size_t N>
 void YamlFields::read(const std::string& key, std::array<int, N>& value) {
   if (!has(key)) return;
   const YAML::Node& list = value_node(key);
-  if (!list.IsSequence() || list.size() != N)
-    fail(key, "must be a list of " + std::to_string(N) + " integers");
-  for (std::size_t i = 0; i < N; ++i) {
-    try {
-      value[i] = list[i].as<int>();
-    } catch (const YAML::Exception&) {
-      fail(key, "entry " + std::to_string(i + 1) + " is not an integer");
-    }
-  }
+  if (!list.IsSequence() || list.size() != N) fail(key, "must be a list of " + std::to_string(N) + " integers");
+  for (std::size_t i = 0; i < N; ++i) value[i] = integer_at(key, list[i], i + 1);
 }
 
 template <class Enum>

@@ -7,7 +7,7 @@ packages=(
   build-essential cmake ninja-build pkg-config ccache
   libeigen3-dev libopencv-dev libyaml-cpp-dev
   libnifti2-dev libniftiio-dev libznz-dev zlib1g-dev
-  libcli11-dev nlohmann-json3-dev
+  libcli11-dev nlohmann-json3-dev libsqlite3-dev libssl-dev
   libgtest-dev libgmock-dev libbenchmark-dev
   # The learning part (CPU libtorch) and TorchScript modules scripted inside its tests.
   libtorch-dev python3-torch

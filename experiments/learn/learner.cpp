@@ -8,6 +8,7 @@
 #include <chrono>
 #include <cmath>
 #include <exception>
+#include <functional>
 #include <numeric>
 #include <string>
 #include <thread>
@@ -271,7 +272,8 @@ std::unique_ptr<Network> make_network(const TrainedModel::Impl& model) {
 
 }  // namespace
 
-TrainResult train(const TrainingSet& set, const TrainOptions& options) {
+TrainResult train(const TrainingSet& set, const TrainOptions& options,
+                  const std::function<void(const EpochProgress&)>& on_epoch) {
   check_trainable(set, options);
   const auto start = std::chrono::steady_clock::now();
   auto model = describe_model(set, options);
@@ -286,19 +288,36 @@ TrainResult train(const TrainingSet& set, const TrainOptions& options) {
   torch::manual_seed(options.seed);
   const Geometry geometry = set.image(0).geometry();
 
-  // Validation split of the bought labels (never truth), from the seed alone.
+  // Validation split of the labelled images (never truth), from the seed alone. It shuffles
+  // images, not label rows: a panel's several labels of one image would otherwise land on both
+  // sides, and validation would reward remembering that image.
   const std::size_t n = set.size();
-  std::vector<std::size_t> order(n);
+  std::vector<std::pair<int, int>> images;  // distinct (subject, rescan), ascending
+  for (std::size_t i = 0; i < n; ++i) images.emplace_back(set.label(i).subject, set.label(i).rescan);
+  std::sort(images.begin(), images.end());
+  images.erase(std::unique(images.begin(), images.end()), images.end());
+  std::vector<std::size_t> order(images.size());
   std::iota(order.begin(), order.end(), std::size_t{0});
   RandomStream split_random = training_stream(options.seed, TrainingStream::split);
   shuffle(order, split_random);
-  std::size_t validation_count =
-      static_cast<std::size_t>(std::lround(options.validation_fraction * static_cast<double>(n)));
-  if (options.validation_fraction > 0.0) validation_count = std::clamp<std::size_t>(validation_count, 1, n - 1);
-  const std::vector<std::size_t> validation(order.begin(),
-                                            order.begin() + static_cast<std::ptrdiff_t>(validation_count));
-  std::vector<std::size_t> training(order.begin() + static_cast<std::ptrdiff_t>(validation_count), order.end());
-  std::sort(training.begin(), training.end());
+  std::size_t validation_count = 0;
+  if (options.validation_fraction > 0.0 && images.size() > 1)
+    validation_count = std::clamp<std::size_t>(
+        static_cast<std::size_t>(std::lround(options.validation_fraction * static_cast<double>(images.size()))), 1,
+        images.size() - 1);
+  std::vector<bool> held_out(images.size(), false);
+  for (std::size_t k = 0; k < validation_count; ++k) held_out[order[k]] = true;
+  std::vector<std::size_t> validation, training;
+  for (std::size_t i = 0; i < n; ++i) {
+    const auto image =
+        std::lower_bound(images.begin(), images.end(), std::make_pair(set.label(i).subject, set.label(i).rescan));
+    (held_out[static_cast<std::size_t>(image - images.begin())] ? validation : training).push_back(i);
+  }
+  summary.validation_labels = validation;
+  for (std::size_t i : validation) summary.validation_subjects.push_back(set.label(i).subject);
+  std::sort(summary.validation_subjects.begin(), summary.validation_subjects.end());
+  summary.validation_subjects.erase(std::unique(summary.validation_subjects.begin(), summary.validation_subjects.end()),
+                                    summary.validation_subjects.end());
 
   // Normalisation from the training split: intensities, and the targets of scalar heads.
   double sum = 0.0, sum_squares = 0.0, voxels = 0.0;
@@ -441,9 +460,21 @@ TrainResult train(const TrainingSet& set, const TrainOptions& options) {
     training_seconds += std::chrono::duration<double>(std::chrono::steady_clock::now() - epoch_start).count();
     summary.training_loss.push_back(loss_sum / static_cast<double>(training.size()));
     summary.epochs_run = epoch + 1;
+    const auto report = [&](double validation_loss) {
+      if (!on_epoch) return;
+      EpochProgress progress;
+      progress.epoch = epoch + 1;
+      progress.epochs = options.epochs;
+      progress.training_loss = summary.training_loss.back();
+      progress.validation_loss = validation_loss;
+      progress.images_per_second = training_seconds > 0.0 ? static_cast<double>(images_seen) / training_seconds : 0.0;
+      progress.seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
+      on_epoch(progress);
+    };
 
     if (validation.empty()) {
       summary.best_epoch = epoch + 1;
+      report(std::numeric_limits<double>::quiet_NaN());
       continue;
     }
     network->set_training(false);
@@ -460,6 +491,7 @@ TrainResult train(const TrainingSet& set, const TrainOptions& options) {
     }
     const double validation_loss = validation_sum / static_cast<double>(validation.size());
     summary.validation_loss.push_back(validation_loss);
+    report(validation_loss);
     if (validation_loss < best) {
       best = validation_loss;
       best_state = network->state();

@@ -11,6 +11,7 @@
 
 #include <cstddef>
 #include <cstdint>
+#include <functional>
 #include <limits>
 #include <memory>
 #include <string>
@@ -65,8 +66,7 @@ Normalization normalization_from_string(const std::string& name);  // throws Use
 
 // The field that affected fractions refer to: voxels with intensity in [low, high] (image
 // units), optionally without the components of that set that touch the image border (air
-// around a body). Defaults: the whole image. For the voids family (lungs in HU):
-// high = -400, drop_border_connected = true.
+// around a body). Defaults: the whole image; default_field_for_family gives a family's field.
 struct FieldOptions {
   double low = -std::numeric_limits<double>::infinity();
   double high = std::numeric_limits<double>::infinity();
@@ -75,6 +75,11 @@ struct FieldOptions {
 };
 // 1 inside the field, 0 outside; never empty (an empty estimate falls back to the whole image).
 LabelImage estimate_field(const FloatImage& image, const FieldOptions& field);
+// The field a phantom family's affected fraction refers to, for use when a study sets none:
+// "streaks" the whole image; "voids" the lungs (high = -400 HU, between the default parenchyma
+// at -850 and body at 40, and drop_border_connected for the air around the body). A family name
+// is not truth: it says how the images were drawn. Throws UserError for another name.
+FieldOptions default_field_for_family(const std::string& family);
 
 struct TrainOptions {
   Strategy strategy = Strategy::mask;
@@ -84,7 +89,7 @@ struct TrainOptions {
   double weight_decay = 1e-5;   // Adam's L2 term
   std::uint64_t seed = 1;
   int threads = 2;                   // torch intra-op threads, set explicitly (Debian defaults to 1)
-  double validation_fraction = 0.2;  // share of the bought labels held out for model selection
+  double validation_fraction = 0.2;  // share of the labelled images held out for model selection
   int patience = 8;                  // epochs without validation improvement before stopping; 0 = never
   int width = 8;                     // channels at the finest level; doubled per level
   int depth = 3;                     // resolution levels; image sides must divide by 2^(depth-1)
@@ -149,6 +154,23 @@ struct TrainSummary {
   std::vector<double> validation_loss;  // per epoch (empty without a validation split)
   double seconds = 0.0;
   double images_per_second = 0.0;  // training images through the optimiser
+  // The validation split is drawn over images, (subject, rescan), not label rows: all labels
+  // of one image are on the same side, so a panel's other answers cannot leak into validation.
+  // When validation_fraction > 0: round(fraction x images), clamped to [1, images - 1]; none
+  // with one image.
+  std::vector<std::size_t> validation_labels;  // indices into the TrainingSet, ascending
+  std::vector<int> validation_subjects;        // their subjects, ascending and distinct
+};
+
+// What train() reports after each epoch (after its validation pass).
+struct EpochProgress {
+  int epoch = 0;   // 1-based epoch just finished
+  int epochs = 0;  // epochs asked for; early stopping may end training before
+  double training_loss = 0.0;
+  // NaN without a validation split.
+  double validation_loss = std::numeric_limits<double>::quiet_NaN();
+  double images_per_second = 0.0;  // training images through the optimiser so far
+  double seconds = 0.0;            // since train() began
 };
 
 // A trained network with everything needed to predict (strategy, normalisation, bins, field).
@@ -179,7 +201,10 @@ struct TrainResult {
 };
 
 // Throws UserError on invalid options, an empty set, or labels the strategy cannot use.
-TrainResult train(const TrainingSet& set, const TrainOptions& options);
+// `on_epoch`, when given, is called on the calling thread after every epoch (never for the
+// classical strategies); an exception it throws ends training and propagates.
+TrainResult train(const TrainingSet& set, const TrainOptions& options,
+                  const std::function<void(const EpochProgress&)>& on_epoch = {});
 
 // What a model says about one image. Fields a strategy cannot answer are NaN; `map` is empty
 // for `scalar`. Rules per strategy:

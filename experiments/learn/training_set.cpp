@@ -141,6 +141,17 @@ LabelImage estimate_field(const FloatImage& image, const FieldOptions& field) {
   return mask;
 }
 
+FieldOptions default_field_for_family(const std::string& family) {
+  FieldOptions field;
+  if (family == "streaks") return field;
+  if (family == "voids") {
+    field.high = -400.0;
+    field.drop_border_connected = true;
+    return field;
+  }
+  throw UserError("unknown phantom family '" + family + "'; allowed: streaks, voids");
+}
+
 std::string TrainOptions::validate() const {
   if (epochs < 1) return "train.epochs = " + format_number(epochs) + ": must be at least 1";
   if (batch_size < 1) return "train.batch_size = " + format_number(batch_size) + ": must be at least 1";

@@ -3,8 +3,10 @@
 #include <Eigen/Core>
 #include <cmath>
 #include <cstdio>
+#include <algorithm>
 #include <functional>
 #include <limits>
+#include <map>
 
 #include "corruptors/grade.h"
 #include "experiments/measure/bland_altman.h"
@@ -12,6 +14,7 @@
 #include "experiments/measure/icc.h"
 #include "experiments/measure/kappa.h"
 #include "experiments/measure/overlap.h"
+#include "experiments/measure/repeatability.h"
 #include "frugal_version.h"
 #include "phantoms/nifti_io.h"
 #include "phantoms/subject.h"
@@ -58,14 +61,12 @@ LabelImage lesion_mask(const LabelImage& labels) {
 
 MapScore score_maps(const PredictionsTable& predictions, const std::vector<const TruthRow*>& truth_rows,
                     const ScoreOptions& options) {
-  MapScore score;
-  std::size_t intersection = 0, truth_voxels = 0, predicted_voxels = 0;
-  double dice_sum = 0.0;
+  MapScoreAccumulator accumulator(options);
   for (std::size_t r = 0; r < predictions.rows.size(); ++r) {
     const PredictionRow& row = predictions.rows[r];
     if (row.map.empty()) continue;
     if (row.map_kind != MapKind::probability) {
-      ++score.not_thresholded;
+      accumulator.add_unthresholded_map();
       continue;
     }
     const std::string path = predictions.map_path(row);
@@ -75,32 +76,47 @@ MapScore score_maps(const PredictionsTable& predictions, const std::vector<const
     } catch (const UserError& error) {
       throw UserError(predictions.where(row) + ": map file: " + error.what());
     }
-    const LabelImage truth = lesion_mask(read_nifti_labels(truth_rows[r]->labels_path));
+    const LabelImage truth = read_nifti_labels(truth_rows[r]->labels_path);
     if (map.shape() != truth.shape())
       throw UserError(path + " (" + predictions.where(row) + "): the map is " + std::to_string(map.shape().x) + "x" +
                       std::to_string(map.shape().y) + "x" + std::to_string(map.shape().z) + " but the truth labels " +
                       truth_rows[r]->labels_path + " are " + std::to_string(truth.shape().x) + "x" +
                       std::to_string(truth.shape().y) + "x" + std::to_string(truth.shape().z) +
                       "; allowed: a map on the image's own grid");
-    const LabelImage predicted = threshold_map(map, options.map_threshold);
-    std::size_t both = 0, in_truth = 0, in_predicted = 0;
-    for (std::size_t i = 0; i < truth.size(); ++i) {
-      in_truth += truth.data()[i];
-      in_predicted += predicted.data()[i];
-      both += truth.data()[i] & predicted.data()[i];
-    }
-    intersection += both;
-    truth_voxels += in_truth;
-    predicted_voxels += in_predicted;
-    dice_sum += measure::dice(both, in_truth, in_predicted);
-    const measure::DetectionResult detection = measure::match_detections(truth, predicted, options.detection);
-    score.truth_lesions += detection.truth_lesions;
-    score.predicted_lesions += detection.predicted_lesions;
-    score.true_positives += detection.true_positives;
-    score.false_positives += detection.false_positives;
-    score.false_negatives += detection.false_negatives;
-    ++score.images;
+    accumulator.add_probability_map(map, truth);
   }
+  return accumulator.finish();
+}
+
+nlohmann::json number_or_null(double value) { return std::isfinite(value) ? nlohmann::json(value) : nlohmann::json(); }
+
+}  // namespace
+
+void MapScoreAccumulator::add_probability_map(const FloatImage& map, const LabelImage& truth_labels) {
+  FRUGAL_CHECK(map.shape() == truth_labels.shape());
+  const LabelImage truth = lesion_mask(truth_labels);
+  const LabelImage predicted = threshold_map(map, options_.map_threshold);
+  std::size_t both = 0, in_truth = 0, in_predicted = 0;
+  for (std::size_t i = 0; i < truth.size(); ++i) {
+    in_truth += truth.data()[i];
+    in_predicted += predicted.data()[i];
+    both += truth.data()[i] & predicted.data()[i];
+  }
+  intersection_ += both;
+  truth_voxels_ += in_truth;
+  predicted_voxels_ += in_predicted;
+  dice_sum_ += measure::dice(both, in_truth, in_predicted);
+  const measure::DetectionResult detection = measure::match_detections(truth, predicted, options_.detection);
+  score_.truth_lesions += detection.truth_lesions;
+  score_.predicted_lesions += detection.predicted_lesions;
+  score_.true_positives += detection.true_positives;
+  score_.false_positives += detection.false_positives;
+  score_.false_negatives += detection.false_negatives;
+  ++score_.images;
+}
+
+MapScore MapScoreAccumulator::finish() const {
+  MapScore score = score_;
   if (score.not_thresholded > 0)
     score.notes.push_back(std::to_string(score.not_thresholded) +
                           " maps are density or response maps; overlap and detection need probability maps");
@@ -109,8 +125,8 @@ MapScore score_maps(const PredictionsTable& predictions, const std::vector<const
     score.notes.push_back("no probability maps to score");
     return score;
   }
-  score.pooled_dice = measure::dice(intersection, truth_voxels, predicted_voxels);
-  score.mean_dice = dice_sum / score.images;
+  score.pooled_dice = measure::dice(intersection_, truth_voxels_, predicted_voxels_);
+  score.mean_dice = dice_sum_ / score.images;
   // Pooled over images with the conventions of detection_matching.h (empty sides score 1).
   const double tp = score.true_positives;
   score.recall = score.truth_lesions == 0 ? 1.0 : tp / (tp + score.false_negatives);
@@ -120,9 +136,44 @@ MapScore score_maps(const PredictionsTable& predictions, const std::vector<const
   return score;
 }
 
-nlohmann::json number_or_null(double value) { return std::isfinite(value) ? nlohmann::json(value) : nlohmann::json(); }
-
-}  // namespace
+RepeatabilityScore score_repeatability(const std::string& quantity, const std::vector<std::vector<double>>& measurements,
+                                       double confidence) {
+  RepeatabilityScore score;
+  score.quantity = quantity;
+  score.within_subject_sd = score.coefficient = score.coefficient_lower = score.coefficient_upper = kNaN;
+  std::vector<const std::vector<double>*> complete;
+  for (const std::vector<double>& row : measurements) {
+    bool finite = row.size() >= 2;
+    for (double value : row) finite = finite && std::isfinite(value);
+    if (finite) complete.push_back(&row);
+  }
+  if (complete.empty()) {
+    score.notes.push_back("repeatability: no subject has a value at every acquisition");
+    return score;
+  }
+  const std::size_t k = complete.front()->size();
+  Eigen::MatrixXd matrix(static_cast<Eigen::Index>(complete.size()), static_cast<Eigen::Index>(k));
+  for (std::size_t s = 0; s < complete.size(); ++s) {
+    FRUGAL_CHECK(complete[s]->size() == k);
+    for (std::size_t j = 0; j < k; ++j)
+      matrix(static_cast<Eigen::Index>(s), static_cast<Eigen::Index>(j)) = (*complete[s])[j];
+  }
+  score.subjects = static_cast<int>(complete.size());
+  score.acquisitions = static_cast<int>(k);
+  guarded(
+      score.notes, "repeatability",
+      [&] {
+        measure::RepeatabilityOptions options;
+        options.confidence = confidence;
+        const measure::RepeatabilityResult result = measure::repeatability(matrix, options);
+        score.within_subject_sd = result.within_subject_sd;
+        score.coefficient = result.repeatability_coefficient;
+        score.coefficient_lower = result.repeatability_coefficient_lower;
+        score.coefficient_upper = result.repeatability_coefficient_upper;
+      },
+      [] {});
+  return score;
+}
 
 std::string ScoreOptions::validate() const {
   if (const std::string error = grading.validate(); !error.empty()) return error;
@@ -244,7 +295,7 @@ ScoreReport score_predictions(const PredictionsTable& predictions, const Phantom
     std::vector<double> predicted, actual;
     for (std::size_t r = 0; r < predictions.rows.size(); ++r) {
       const double value = predictions.rows[r].*field;
-      if (std::isnan(value)) continue;
+      if (std::isnan(value) || predictions.rows[r].rescan > 0) continue;
       predicted.push_back(value);
       actual.push_back(truth_of(*truth_rows[r]));
     }
@@ -274,7 +325,7 @@ ScoreReport score_predictions(const PredictionsTable& predictions, const Phantom
     bool whole = true;
     for (std::size_t r = 0; r < predictions.rows.size(); ++r) {
       const double value = predictions.rows[r].grade;
-      if (std::isnan(value)) continue;
+      if (std::isnan(value) || predictions.rows[r].rescan > 0) continue;
       whole = whole && value == std::floor(value) && value >= 0.0 && value < options.grading.bins();
       predicted.push_back(value);
       actual.push_back(grade_of_fraction(truth_rows[r]->affected_fraction, options.grading));
@@ -301,7 +352,7 @@ ScoreReport score_predictions(const PredictionsTable& predictions, const Phantom
     int correct = 0;
     for (std::size_t r = 0; r < predictions.rows.size(); ++r) {
       const double probability = predictions.rows[r].presence_probability;
-      if (std::isnan(probability)) continue;
+      if (std::isnan(probability) || predictions.rows[r].rescan > 0) continue;
       const int actual = truth_present(*truth_rows[r]) ? 1 : 0;
       scores.push_back(probability);
       present.push_back(actual);
@@ -320,6 +371,36 @@ ScoreReport score_predictions(const PredictionsTable& predictions, const Phantom
   }
 
   if (predictions.has_map) report.maps = score_maps(predictions, truth_rows, options);
+
+  // Rescans: each subject's values at every acquisition it has in the table.
+  bool has_rescans = false;
+  for (const PredictionRow& row : predictions.rows) has_rescans = has_rescans || row.rescan > 0;
+  if (has_rescans) {
+    const std::vector<std::pair<std::string, double PredictionRow::*>> fields{
+        {"count", &PredictionRow::count},
+        {"affected_fraction", &PredictionRow::affected_fraction},
+        {"burden_mm3", &PredictionRow::burden_mm3},
+        {"grade", &PredictionRow::grade},
+        {"presence_probability", &PredictionRow::presence_probability}};
+    for (const auto& [name, field] : fields) {
+      std::map<int, std::map<int, double>> by_subject;
+      bool any = false;
+      for (const PredictionRow& row : predictions.rows) {
+        by_subject[row.subject][row.rescan] = row.*field;
+        any = any || !std::isnan(row.*field);
+      }
+      if (!any) continue;
+      std::size_t acquisitions = 0;
+      for (const auto& [subject, values] : by_subject) acquisitions = std::max(acquisitions, values.size());
+      std::vector<std::vector<double>> measurements;
+      for (const auto& [subject, values] : by_subject) {
+        if (values.size() != acquisitions) continue;  // a subject without every rescan
+        std::vector<double>& row = measurements.emplace_back();
+        for (const auto& [rescan, value] : values) row.push_back(value);
+      }
+      report.repeatability.push_back(score_repeatability(name, measurements, options.confidence));
+    }
+  }
   return report;
 }
 
@@ -362,6 +443,16 @@ nlohmann::json to_json(const ScoreReport& report) {
     quantities[q.quantity] = entry;
   }
   out["quantities"] = quantities;
+  json repeatability = json::object();
+  for (const RepeatabilityScore& r : report.repeatability)
+    repeatability[r.quantity] = {{"subjects", r.subjects},
+                                 {"acquisitions", r.acquisitions},
+                                 {"within_subject_sd", number_or_null(r.within_subject_sd)},
+                                 {"repeatability_coefficient", number_or_null(r.coefficient)},
+                                 {"repeatability_coefficient_lower", number_or_null(r.coefficient_lower)},
+                                 {"repeatability_coefficient_upper", number_or_null(r.coefficient_upper)},
+                                 {"notes", r.notes}};
+  if (!report.repeatability.empty()) out["repeatability"] = repeatability;
   if (report.presence) {
     const PresenceScore& p = *report.presence;
     out["presence"] = {{"n", p.n},

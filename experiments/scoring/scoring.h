@@ -13,6 +13,7 @@
 #include "corruptors/rater.h"
 #include "experiments/measure/detection_matching.h"
 #include "experiments/scoring/predictions_table.h"
+#include "phantoms/image.h"
 #include "phantoms/phantom_set_reader.h"
 
 namespace frugal::scoring {
@@ -72,12 +73,45 @@ struct MapScore {
   std::vector<std::string> notes;
 };
 
+// Agreement of a quantity between the first acquisition and the rescans of the same subjects
+// (Bland & Altman, BMJ 1996): within-subject SD and repeatability coefficient 2.77 s_w, with
+// chi-squared intervals. NaN with a note when fewer than two subjects have every rescan.
+struct RepeatabilityScore {
+  std::string quantity;
+  int subjects = 0;
+  int acquisitions = 0;  // per subject: the first plus its rescans
+  double within_subject_sd = 0.0;
+  double coefficient = 0.0;
+  double coefficient_lower = 0.0;
+  double coefficient_upper = 0.0;
+  std::vector<std::string> notes;
+};
+
+// Lesion overlap and detection of probability maps, pooled over images added one at a time, so
+// that a large set is scored without holding every map.
+class MapScoreAccumulator {
+ public:
+  explicit MapScoreAccumulator(const ScoreOptions& options) : options_(options) {}
+  // `truth_labels` are the phantom's label codes (kLesion marks lesions); shapes must agree.
+  void add_probability_map(const FloatImage& map, const LabelImage& truth_labels);
+  void add_unthresholded_map() { ++score_.not_thresholded; }  // a density or response map
+  MapScore finish() const;
+
+ private:
+  ScoreOptions options_;
+  MapScore score_;
+  std::size_t intersection_ = 0, truth_voxels_ = 0, predicted_voxels_ = 0;
+  double dice_sum_ = 0.0;
+};
+
 struct ScoreReport {
   std::string predictions_file;
   std::string phantom_set;
   int prediction_rows = 0;
   int truth_rows = 0;
+  // Over the first acquisitions (rescan 0) only, so that a rescan is not counted as another subject.
   std::vector<QuantityScore> quantities;  // in the order count, affected_fraction, burden_mm3, grade; those given
+  std::vector<RepeatabilityScore> repeatability;  // per quantity, when the table has rescans
   std::optional<PresenceScore> presence;  // when the table has presence_probability
   std::optional<MapScore> maps;           // when the table has maps
   std::vector<std::string> ignored_columns;
@@ -94,6 +128,9 @@ ScoreReport score_predictions(const PredictionsTable& predictions, const Phantom
 // The building blocks, usable alone. `predicted[i]` and `truth[i]` are the same image.
 QuantityScore score_quantity(const std::string& quantity, const std::vector<double>& predicted,
                              const std::vector<double>& truth, double confidence = 0.95);
+// measurements[s] holds subject s's value at each acquisition (the first, then each rescan).
+RepeatabilityScore score_repeatability(const std::string& quantity, const std::vector<std::vector<double>>& measurements,
+                                       double confidence = 0.95);
 // Area under the ROC curve: the Mann-Whitney statistic from average ranks, ties counting one
 // half. `present` holds 0 or 1 per score. NaN when either class is empty.
 double roc_auc(const std::vector<double>& scores, const std::vector<int>& present);

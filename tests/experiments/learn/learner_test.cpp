@@ -10,6 +10,8 @@
 #include <filesystem>
 #include <fstream>
 #include <numeric>
+#include <set>
+#include <utility>
 #include <vector>
 
 #include "learn_test_problems.h"
@@ -116,6 +118,104 @@ TEST(GradeBounds, RecoversTheAffectedFraction) {
   std::printf("grade-bounds: fraction MAE %.4f, mean-prediction MAE %.4f, %d epochs, %.1f s\n", model_mae, baseline_mae,
               result.summary.epochs_run, result.summary.seconds);
   EXPECT_LE(model_mae, 0.6 * baseline_mae);
+}
+
+// A panel of three raters labels every image, as `frugal labels` with a 3-member panel does;
+// rows are in label-set order (subject, then rater). Training is one tiny epoch: only the split
+// and the reports are looked at.
+struct PanelProblem {
+  std::vector<Subject> subjects;
+  TrainingSet set;
+  TrainOptions options;
+};
+
+PanelProblem panel_problem(int images, int raters) {
+  PanelProblem problem;
+  problem.subjects = draw_subjects(small_scenario(Family::streaks, 32), kSeed, 0, images);
+  RaterOptions panel = careful_rater();
+  panel.panel.raters = raters;
+  for (const Subject& subject : problem.subjects)
+    for (int rater = 0; rater < raters; ++rater) {
+      LabelRequest request;
+      request.rater = rater;
+      problem.set.add(subject.image, make_label(subject, panel, request, kSeed));
+    }
+  problem.options = quick_options(Strategy::count_map);
+  problem.options.epochs = 1;
+  problem.options.width = 4;
+  problem.options.depth = 2;
+  problem.options.validation_fraction = 0.2;
+  return problem;
+}
+
+TEST(ValidationSplit, KeepsEveryLabelOfAnImageOnOneSide) {
+  std::printf("seed %llu\n", static_cast<unsigned long long>(kSeed));
+  const PanelProblem problem = panel_problem(20, 3);
+  const TrainSummary summary = train(problem.set, problem.options).summary;
+  std::set<std::pair<int, int>> validation_images, training_images;
+  const std::vector<std::size_t>& held_out = summary.validation_labels;
+  for (std::size_t i = 0; i < problem.set.size(); ++i) {
+    const Label& label = problem.set.label(i);
+    const bool validation = std::binary_search(held_out.begin(), held_out.end(), i);
+    (validation ? validation_images : training_images).emplace(label.subject, label.rescan);
+  }
+  for (const auto& [subject, rescan] : validation_images)
+    EXPECT_EQ(training_images.count({subject, rescan}), 0U) << "subject " << subject << ", rescan " << rescan;
+  // round(0.2 x 20 images) = 4 images, each with its 3 labels (learner.h's rule).
+  EXPECT_EQ(validation_images.size(), 4U);
+  EXPECT_EQ(held_out.size(), 12U);
+  EXPECT_TRUE(std::is_sorted(held_out.begin(), held_out.end()));
+  std::vector<int> subjects;
+  for (const auto& image : validation_images) subjects.push_back(image.first);
+  EXPECT_EQ(summary.validation_subjects, subjects);
+  EXPECT_EQ(summary.validation_loss.size(), 1U);
+}
+
+// One image labelled three times cannot be split: no validation, the last epoch is kept.
+TEST(ValidationSplit, OneImageHasNoValidationSplit) {
+  const PanelProblem problem = panel_problem(1, 3);
+  const TrainSummary summary = train(problem.set, problem.options).summary;
+  EXPECT_TRUE(summary.validation_labels.empty());
+  EXPECT_TRUE(summary.validation_subjects.empty());
+  EXPECT_TRUE(summary.validation_loss.empty());
+  EXPECT_TRUE(std::isnan(summary.best_validation_loss));
+  EXPECT_EQ(summary.epochs_run, 1);
+  EXPECT_EQ(summary.best_epoch, 1);
+}
+
+TEST(EpochProgress, ReportsEveryEpochAsTheSummaryRecordsIt) {
+  PanelProblem problem = panel_problem(12, 1);
+  problem.options.epochs = 3;
+  problem.options.patience = 0;
+  std::vector<EpochProgress> reports;
+  const TrainSummary summary =
+      train(problem.set, problem.options, [&](const EpochProgress& progress) { reports.push_back(progress); }).summary;
+  ASSERT_EQ(reports.size(), 3U);
+  for (std::size_t k = 0; k < reports.size(); ++k) {
+    EXPECT_EQ(reports[k].epoch, static_cast<int>(k) + 1);
+    EXPECT_EQ(reports[k].epochs, 3);
+    EXPECT_EQ(reports[k].training_loss, summary.training_loss[k]);
+    EXPECT_EQ(reports[k].validation_loss, summary.validation_loss[k]);
+    EXPECT_GT(reports[k].images_per_second, 0.0);
+    if (k > 0) {
+      EXPECT_GE(reports[k].seconds, reports[k - 1].seconds);
+    }
+  }
+  EXPECT_LE(reports.back().seconds, summary.seconds);
+}
+
+// The voids family's default field (common practice, no source: lungs are below about -400 HU,
+// and the air outside the body touches the image border).
+TEST(DefaultField, FollowsThePhantomFamily) {
+  const FieldOptions streaks = default_field_for_family("streaks");
+  EXPECT_TRUE(std::isinf(streaks.low) && streaks.low < 0);
+  EXPECT_TRUE(std::isinf(streaks.high) && streaks.high > 0);
+  EXPECT_FALSE(streaks.drop_border_connected);
+  const FieldOptions voids = default_field_for_family("voids");
+  EXPECT_TRUE(std::isinf(voids.low) && voids.low < 0);
+  EXPECT_EQ(voids.high, -400.0);
+  EXPECT_TRUE(voids.drop_border_connected);
+  EXPECT_THROW(default_field_for_family("lungs"), UserError);
 }
 
 // A tiny problem for the exactness checks: same seed and threads must give the same bits.
