@@ -63,6 +63,7 @@ study::RunSummary run_study_with_display(const study::StudyOptions& options, con
               options.name.c_str(), summary.cells_shard, summary.cells_study, summary.done + summary.failed,
               summary.skipped, store_path.c_str(), summary.failed, summary.seconds);
   for (const std::string& failure : summary.failures) std::printf("  failed: %s\n", failure.c_str());
+  std::fflush(stdout);  // before any error message on stderr
   return summary;
 }
 

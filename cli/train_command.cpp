@@ -20,6 +20,7 @@
 #include "corruptors/label_set_reader.h"
 #include "corruptors/rater_yaml.h"
 #include "experiments/learn/learner.h"
+#include "experiments/learn/train_options_json.h"
 #include "frugal_version.h"
 #include "phantoms/nifti_io.h"
 #include "phantoms/phantom_set_reader.h"
@@ -46,55 +47,6 @@ struct TrainArguments {
   learn::TrainOptions options;
   std::vector<const CLI::Option*> field_options;  // --field-low, --field-high, --field-drop-border
 };
-
-json options_json(const learn::TrainOptions& o) {
-  return {{"strategy", learn::to_string(o.strategy)},
-          {"epochs", o.epochs},
-          {"batch_size", o.batch_size},
-          {"learning_rate", o.learning_rate},
-          {"weight_decay", o.weight_decay},
-          {"seed", o.seed},
-          {"threads", o.threads},
-          {"validation_fraction", o.validation_fraction},
-          {"patience", o.patience},
-          {"width", o.width},
-          {"depth", o.depth},
-          {"normalization", learn::to_string(o.normalization)},
-          {"channels_last", o.channels_last},
-          {"bfloat16", o.bfloat16},
-          {"augmentation",
-           {{"flips", o.augmentation.flips},
-            {"rotation_degrees", o.augmentation.rotation_degrees},
-            {"deformation_mm", o.augmentation.deformation_mm},
-            {"deformation_spacing_mm", o.augmentation.deformation_spacing_mm}}},
-          {"dice_weight", o.dice_weight},
-          {"robust_loss", learn::to_string(o.robust_loss)},
-          {"gce_q", o.gce_q},
-          {"bootstrap_beta", o.bootstrap_beta},
-          {"label_smoothing", o.label_smoothing},
-          {"background_prior", o.background_prior},
-          {"pooling_sharpness", o.pooling_sharpness},
-          {"point_radius_mm", o.point_radius_mm},
-          {"object_size_min_mm3", o.object_size_min_mm3},
-          {"object_size_max_mm3", o.object_size_max_mm3},
-          {"mask_weight", o.mask_weight},
-          {"weak_weight", o.weak_weight},
-          {"consistency_weight", o.consistency_weight},
-          {"threshold_hu", o.threshold_hu},
-          {"line_filter",
-           {{"sigmas_mm", o.line_filter.filter.sigmas_mm},
-            {"threshold", o.line_filter.threshold},
-            {"min_length_mm", o.line_filter.min_length_mm},
-            {"max_length_mm", o.line_filter.max_length_mm},
-            {"min_elongation", o.line_filter.min_elongation}}},
-          {"network_file", o.network_file},
-          {"grading_bin_edges", o.grading.bin_edges},
-          // JSON has no infinity: an open field bound is written as null.
-          {"field",
-           {{"low", std::isfinite(o.field.low) ? json(o.field.low) : json()},
-            {"high", std::isfinite(o.field.high) ? json(o.field.high) : json()},
-            {"drop_border_connected", o.field.drop_border_connected}}}};
-}
 
 // learn's messages name keys as a study file would ("train.batch_size = 0: ..."); on the command
 // line the user typed an option, so name that too: "--batch-size = 0: ... (train.batch_size)".
@@ -278,7 +230,7 @@ void run_train(TrainArguments& arguments) {
   sidecar["kind"] = "model";
   sidecar["model"] = arguments.out;
   sidecar["strategy"] = learn::to_string(options.strategy);
-  sidecar["options"] = options_json(options);
+  sidecar["options"] = learn::to_json(options);  // every option, read back by learn::update_from_json
   sidecar["grading_bins_from"] = grading_source;
   sidecar["field_from"] = field_source;
   sidecar["phantom_set"] = arguments.phantoms;

@@ -282,9 +282,19 @@ void CohortCache::prefetch_labels(const LabelSource& source, const std::vector<i
   for (std::size_t i = 0; i < missing.size(); ++i) plan_labels.emplace(missing[i], std::move(made[i]));
 }
 
+const CellResult* CohortCache::same_purchase(const std::string& purchase_key) const {
+  const auto found = results_.find(purchase_key);
+  return found == results_.end() ? nullptr : &found->second;
+}
+
+void CohortCache::remember_purchase(const std::string& purchase_key, const CellResult& result) {
+  results_.emplace(purchase_key, result);
+}
+
 void CohortCache::clear() {
   subjects_.clear();
   labels_.clear();
+  results_.clear();
 }
 
 std::vector<int> purchase_order(std::uint64_t seed, int repeat, int pool) {
@@ -349,6 +359,24 @@ CellResult run_cell(const CellSpec& spec, CohortCache* shared_cache, const std::
                       " buys no label of plan " + spec.plan.name + " (the first image's labels cost more)");
   }
   result.seconds_label = seconds_since(label_start) - generate_seconds;
+
+  // The same labels and training as a cell already run: the same numbers, without training again.
+  nlohmann::json purchase = to_json(spec, false);
+  purchase.erase("budget");
+  nlohmann::json bought = nlohmann::json::array();
+  for (const store::LabelCostRow& row : result.label_costs) bought.push_back({row.part, row.subject, row.rater});
+  purchase["bought"] = bought;
+  const std::string purchase_key = sha256_hex(purchase.dump());
+  if (const CellResult* earlier = cache.same_purchase(purchase_key)) {
+    CellResult reused = *earlier;
+    reused.key = result.key;
+    reused.budget = result.budget;
+    reused.spec_json = result.spec_json;
+    reused.seconds_generate = generate_seconds;
+    reused.seconds_label = result.seconds_label;
+    reused.seconds_train = reused.seconds_predict = reused.seconds_score = 0.0;
+    return reused;
+  }
 
   // Test sets: the same subjects for every cell of this repeat.
   const auto generate_start = Clock::now();
@@ -450,6 +478,7 @@ CellResult run_cell(const CellSpec& spec, CohortCache* shared_cache, const std::
     }
   }
   result.seconds_score = seconds_since(score_start);
+  cache.remember_purchase(purchase_key, result);
   return result;
 }
 

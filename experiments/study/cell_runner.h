@@ -64,9 +64,14 @@ class CohortCache {
   const std::vector<Label>& labels(const LabelSource& source, int index);
   // Makes the labels missing for `indices` at once, in parallel over subjects.
   void prefetch_labels(const LabelSource& source, const std::vector<int>& indices, int threads);
+  // A finished cell whose purchase (everything but the budget, and the labels bought) was the
+  // same: a budget beyond the pool buys what a smaller one did, and trains the same model.
+  const CellResult* same_purchase(const std::string& purchase_key) const;
+  void remember_purchase(const std::string& purchase_key, const CellResult& result);
   void clear();
 
  private:
+  std::map<std::string, CellResult> results_;  // purchase key -> result
   std::map<std::string, std::map<std::pair<int, int>, Subject>> subjects_;  // source key -> (index, rescan)
   std::map<std::string, std::map<int, std::vector<Label>>> labels_;         // label source key -> index
 };

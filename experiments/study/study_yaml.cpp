@@ -47,9 +47,9 @@ Options file_or_inline(YamlFields& fields, const std::string& key, const std::st
   return from_file(source);
 }
 
-// The label kinds a plan may name, with "none" for plans of classical strategies.
+// The label kinds a plan may name (label.cpp's names), with "none" for plans of classical strategies.
 const std::vector<std::string>& kind_names() {
-  static const std::vector<std::string> names{"none", "presence", "count", "grade", "points", "partial_mask", "outline"};
+  static const std::vector<std::string> names{"none", "presence", "count", "grade", "points", "partial", "outline"};
   return names;
 }
 
@@ -68,16 +68,16 @@ std::string kinds_text(const std::vector<LabelKind>& kinds) {
 // The strategies a plain (not mixed) plan of this kind can train, for "allowed" in messages.
 std::string strategies_for(bool labelled, LabelKind kind) {
   using learn::Strategy;
-  static const Strategy all[] = {Strategy::mask,         Strategy::mask_robust, Strategy::partial,
-                                 Strategy::partial_naive, Strategy::count_map,  Strategy::grade_bounds,
-                                 Strategy::presence_mil, Strategy::points,      Strategy::scalar,
-                                 Strategy::mixed,        Strategy::threshold,   Strategy::line_filter};
+  static const Strategy all[] = {Strategy::mask,          Strategy::mask_robust, Strategy::partial,
+                                 Strategy::partial_naive, Strategy::count_map,   Strategy::grade_bounds,
+                                 Strategy::presence_mil,  Strategy::points,      Strategy::scalar,
+                                 Strategy::mixed,         Strategy::threshold,   Strategy::line_filter};
   std::vector<std::string> names;
   for (Strategy strategy : all) {
     if (strategy == Strategy::mixed) continue;
     const std::vector<LabelKind> accepted = learn::accepted_label_kinds(strategy);
-    const bool fits = labelled ? std::find(accepted.begin(), accepted.end(), kind) != accepted.end()
-                               : learn::is_classical(strategy);
+    const bool fits =
+        labelled ? std::find(accepted.begin(), accepted.end(), kind) != accepted.end() : learn::is_classical(strategy);
     if (fits) names.push_back(learn::to_string(strategy));
   }
   return list(names);
@@ -90,7 +90,8 @@ LabelPlan read_plan(YamlFields& plans, const std::string& name, const std::strin
   std::vector<std::string> strategies;
   fields.require("strategies");
   fields.read("strategies", strategies);
-  if (strategies.empty()) fields.fail("strategies", "is empty; allowed: a list of one or more strategy names to train on this plan");
+  if (strategies.empty())
+    fields.fail("strategies", "is empty; allowed: a list of one or more strategy names to train on this plan");
   for (const std::string& strategy : strategies) {
     try {
       plan.strategies.push_back(learn::strategy_from_string(strategy));
@@ -109,8 +110,8 @@ LabelPlan read_plan(YamlFields& plans, const std::string& name, const std::strin
       fields.fail("strong_share", "= " + number(plan.strong_share) + ": allowed (0, 1), the strong plan's share of each budget");
     for (learn::Strategy strategy : plan.strategies)
       if (strategy != learn::Strategy::mixed)
-        fields.fail("strategies", "names " + learn::to_string(strategy) +
-                                      "; allowed on a mixed plan (strong + weak): mixed only");
+        fields.fail("strategies",
+                    "names " + learn::to_string(strategy) + "; allowed on a mixed plan (strong + weak): mixed only");
     fields.finish();
     return plan;
   }
@@ -147,13 +148,13 @@ LabelPlan read_plan(YamlFields& plans, const std::string& name, const std::strin
     const std::vector<LabelKind> accepted = learn::accepted_label_kinds(strategy);
     const std::string allowed = "; allowed on a plan of kind " + kind + ": " + strategies_for(plan.labelled, plan.kind);
     if (strategy == learn::Strategy::mixed)
-      fields.fail("strategies", "names mixed, which trains on a mixed plan only (keys strong, weak, strong_share)" +
-                                    allowed);
+      fields.fail("strategies",
+                  "names mixed, which trains on a mixed plan only (keys strong, weak, strong_share)" + allowed);
     const bool fits = plan.labelled ? std::find(accepted.begin(), accepted.end(), plan.kind) != accepted.end()
                                     : learn::is_classical(strategy);
     if (!fits)
-      fields.fail("strategies", "names " + learn::to_string(strategy) + ", which trains on " + kinds_text(accepted) +
-                                    allowed);
+      fields.fail("strategies",
+                  "names " + learn::to_string(strategy) + ", which trains on " + kinds_text(accepted) + allowed);
   }
   fields.finish();
   return plan;
@@ -235,8 +236,9 @@ StudyOptions read_study(const YAML::Node& root, const std::string& file, const s
       throw UserError(file + ":" + std::to_string(line_of_key_path(root, error.substr(0, error.find(' ')))) + ": " +
                       error + " (see docs/studies.md)");
     if (study.cohort.decorrelated_test && study.scenario.confounder.factor == ConfounderFactor::none)
-      cohort.fail("decorrelated_test", "is true, but the scenario has no confounder (scenario key "
-                                       "confounder.factor); allowed: false, or a scenario with a confounder");
+      cohort.fail("decorrelated_test",
+                  "is true, but the scenario has no confounder (scenario key "
+                  "confounder.factor); allowed: false, or a scenario with a confounder");
   }
   fields.require("plans");
   {
@@ -264,7 +266,8 @@ StudyOptions read_study(const YAML::Node& root, const std::string& file, const s
         fail("strong", "names strong plan '" + plan.strong + "'; allowed: a plan of kind outline in this study");
       if (weak == nullptr || weak->is_mixed() || !weak->labelled ||
           !(weak->kind == LabelKind::count || weak->kind == LabelKind::grade || weak->kind == LabelKind::presence))
-        fail("weak", "names weak plan '" + plan.weak + "'; allowed: a plan of kind count, grade or presence in this study");
+        fail("weak",
+             "names weak plan '" + plan.weak + "'; allowed: a plan of kind count, grade or presence in this study");
     }
   }
   std::string unit = "hours";
@@ -281,27 +284,38 @@ StudyOptions read_study(const YAML::Node& root, const std::string& file, const s
     if (!(std::isfinite(budget) && budget > 0.0))
       fields.fail("budgets", "entry " + std::to_string(i + 1) + " = " + number(budget) + ": allowed a positive number of " + unit);
     if (study.budget_unit == BudgetUnit::labels && budget != std::floor(budget))
-      fields.fail("budgets", "entry " + std::to_string(i + 1) + " = " + number(budget) + ": allowed whole numbers (budget_unit labels)");
+      fields.fail("budgets", "entry " + std::to_string(i + 1) + " = " + number(budget) +
+                                 ": allowed whole numbers (budget_unit labels)");
     if (i > 0 && budget <= study.budgets[i - 1])
       fields.fail("budgets", "entry " + std::to_string(i + 1) + " = " + number(budget) +
                                  " is not above the one before; allowed: ascending budgets, each once");
   }
-  if (needs_budgets && study.budgets.empty()) fields.fail("budgets", "is empty; allowed: a list of one or more budgets in " + unit);
-  // A budget must buy at least one image's labels in every plan it applies to.
+  if (needs_budgets && study.budgets.empty())
+    fields.fail("budgets", "is empty; allowed: a list of one or more budgets in " + unit);
+  // A budget must buy at least one image's labels in every plan it applies to, and a plain plan
+  // the 2 labels training needs (learner.cpp); a mixed plan's two parts give one image each.
   if (!study.budgets.empty())
     for (const LabelPlan& plan : study.plans) {
       if (!plan.labelled) continue;
       const auto check = [&](const LabelPlan& part, double share) {
         const double smallest = study.budgets.front() * share;
-        const bool too_small = study.budget_unit == BudgetUnit::hours ? smallest * 3600.0 < cheapest_image_seconds(part)
-                                                                      : std::floor(smallest + 1e-9) < 1.0;
-        if (too_small)
-          fields.fail("budgets", "entry 1 = " + number(study.budgets.front()) + " " + unit + " buys no label of plan " +
-                                     part.name + (share < 1.0 ? " (its share " + number(share) + " in plan " + plan.name + ")" : "") +
-                                     (study.budget_unit == BudgetUnit::hours
-                                          ? ": one image costs at least " + number(cheapest_image_seconds(part)) + " s"
-                                          : "") +
+        const int images = share < 1.0 || part.raters_per_image >= 2 ? 1 : 2;
+        const bool too_small = study.budget_unit == BudgetUnit::hours
+                                   ? smallest * 3600.0 < images * cheapest_image_seconds(part)
+                                   : std::floor(smallest + 1e-9) < images;
+        if (!too_small) return;
+        const std::string cost = study.budget_unit == BudgetUnit::hours
+                                     ? ": one image costs at least " + number(cheapest_image_seconds(part)) + " s"
+                                     : "";
+        const std::string share_text =
+            share < 1.0 ? " (its share " + number(share) + " in plan " + plan.name + ")" : "";
+        const std::string start = "entry 1 = " + number(study.budgets.front()) + " " + unit;
+        if (images == 1)
+          fields.fail("budgets", start + " buys no label of plan " + part.name + share_text + cost +
                                      "; allowed: budgets that buy at least one image");
+        fields.fail("budgets", start + " buys at most one image of plan " + part.name +
+                                   " (1 label per image), and training needs 2 labels" + cost +
+                                   "; allowed: budgets that buy at least 2 images");
       };
       if (plan.is_mixed()) {
         check(*study.plan(plan.strong), plan.strong_share);
@@ -323,7 +337,8 @@ StudyOptions read_study(const YAML::Node& root, const std::string& file, const s
   for (const std::string& quantity : study.quantities)
     if (std::find(known_quantities().begin(), known_quantities().end(), quantity) == known_quantities().end())
       fields.fail("quantities", "names '" + quantity + "'; allowed: " + list(known_quantities()));
-  if (study.quantities.empty()) fields.fail("quantities", "is empty; allowed: one or more of " + list(known_quantities()));
+  if (study.quantities.empty())
+    fields.fail("quantities", "is empty; allowed: one or more of " + list(known_quantities()));
 
   // Training settings shared by every cell: the keys of TrainOptions (docs/studies.md).
   // Fractions refer to the family's field (a lung-like field excludes the air around the body).
@@ -338,9 +353,12 @@ StudyOptions read_study(const YAML::Node& root, const std::string& file, const s
       const int line = line_of_key_path(root, message.substr(0, message.find(':')));
       throw UserError(file + ":" + std::to_string(line) + ": " + message + " (see docs/studies.md)");
     }
-    if (node["strategy"]) train.fail("strategy", "is set per plan (plans.<name>.strategies), not here; allowed: no train.strategy key");
-    if (node["threads"]) train.fail("threads", "is set at the top level (threads) or with frugal run --threads; allowed: no "
-                                  "train.threads key");
+    if (node["strategy"])
+      train.fail("strategy", "is set per plan (plans.<name>.strategies), not here; allowed: no train.strategy key");
+    if (node["threads"])
+      train.fail("threads",
+                 "is set at the top level (threads) or with frugal run --threads; allowed: no "
+                 "train.threads key");
   }
   if (const std::string error = study.train.validate(); !error.empty()) {
     const int line = line_of_key_path(root, error.substr(0, error.find_first_of(" :")));

@@ -213,5 +213,29 @@ TEST_F(ScorePredictions, UnknownSubjectsAndBadMapsNameTheFileAndLine) {
   EXPECT_THROW(score_predictions(read_predictions_table(missing_map), read_phantom_set(root_.string())), UserError);
 }
 
+TEST(ScoreRepeatability, MatchesTheBlandAltmanPeakFlowExample) {
+  // Bland & Altman, Lancet 1986, peak expiratory flow, Wright meter first and second readings
+  // (data as transcribed by the blandr R package). s_w = sqrt(sum d^2 / 2n) = 15.307 and the
+  // repeatability coefficient 1.96 sqrt(2) s_w = 42.43, computed with numpy.
+  const std::vector<double> first{494, 395, 516, 434, 476, 557, 413, 442, 650, 433, 417, 656, 267, 478, 178, 423, 427};
+  const std::vector<double> second{490, 397, 512, 401, 470, 611, 415, 431, 638, 429, 420, 633, 275, 492, 165, 372, 421};
+  std::vector<std::vector<double>> measurements;
+  for (std::size_t i = 0; i < first.size(); ++i) measurements.push_back({first[i], second[i]});
+  const RepeatabilityScore score = score_repeatability("pefr", measurements);
+  EXPECT_EQ(score.subjects, 17);
+  EXPECT_EQ(score.acquisitions, 2);
+  EXPECT_NEAR(score.within_subject_sd, 15.307, 1e-3);
+  EXPECT_NEAR(score.coefficient, 42.43, 1e-2);
+  EXPECT_LT(score.coefficient_lower, score.coefficient);
+  EXPECT_GT(score.coefficient_upper, score.coefficient);
+  // A subject without every acquisition is left out, not padded.
+  measurements.push_back({500.0, std::nan("")});
+  EXPECT_EQ(score_repeatability("pefr", measurements).subjects, 17);
+  // Nothing complete: n/a with a reason, not an exception.
+  const RepeatabilityScore none = score_repeatability("pefr", {{1.0, std::nan("")}});
+  EXPECT_TRUE(std::isnan(none.coefficient));
+  EXPECT_FALSE(none.notes.empty());
+}
+
 }  // namespace
 }  // namespace frugal::scoring

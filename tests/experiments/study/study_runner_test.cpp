@@ -66,6 +66,11 @@ std::string tiny_study_text(const std::string& unit = "labels", const std::strin
          "    rater: " + source + "/raters/careful-reader.yaml\n"
          "    raters_per_image: 1\n"
          "    strategies: [mask]\n"
+         "  mix:\n"
+         "    strong: outlines\n"
+         "    weak: counts\n"
+         "    strong_share: 0.5\n"
+         "    strategies: [mixed]\n"
          "  filter:\n"
          "    kind: none\n"
          "    strategies: [line-filter]\n"
@@ -138,12 +143,12 @@ TEST(StudyRunner, TinyStudyFillsTheStoreAsTheStudySays) {
   RunOptions options;
   options.store_path = (folder / "results.db").string();
   const RunSummary summary = run_study(study, options);
-  // 2 labelled plans x 2 budgets x 2 repeats, plus the line filter once per repeat.
-  EXPECT_EQ(summary.cells_study, 10);
-  EXPECT_EQ(summary.done, 10);
+  // 3 labelled plans x 2 budgets x 2 repeats, plus the line filter once per repeat.
+  EXPECT_EQ(summary.cells_study, 14);
+  EXPECT_EQ(summary.done, 14);
   EXPECT_EQ(summary.failed, 0);
   const store::ResultsStore results = store::ResultsStore::open_existing(options.store_path);
-  EXPECT_EQ(results.study().cells_total, 10);
+  EXPECT_EQ(results.study().cells_total, 14);
   EXPECT_EQ(results.study().study_hash, study_hash(study));
   for (const store::CellRecord& cell : results.cells()) {
     SCOPED_TRACE(cell.plan + " " + std::to_string(cell.budget));
@@ -152,9 +157,11 @@ TEST(StudyRunner, TinyStudyFillsTheStoreAsTheStudySays) {
       EXPECT_EQ(cell.labels_bought, 0);
       EXPECT_EQ(cell.budget, 0.0);
     } else {
-      // A label budget buys that many images; the quick panel reads each image twice.
-      const int raters = cell.plan == "counts" ? 2 : 1;
-      EXPECT_EQ(cell.labels_bought, static_cast<int>(cell.budget) * raters);
+      // A label budget buys that many images; the quick panel reads each image twice. The mixed
+      // plan buys half its images from each part.
+      const int images = static_cast<int>(cell.budget);
+      const int expected = cell.plan == "counts" ? 2 * images : cell.plan == "mix" ? images / 2 + 2 * (images / 2) : images;
+      EXPECT_EQ(cell.labels_bought, expected);
       double seconds = 0.0;
       for (const store::LabelCostRow& row : cell.label_costs) seconds += row.seconds;
       EXPECT_NEAR(cell.hours_spent, seconds / 3600.0, 1e-9);
@@ -186,7 +193,8 @@ TEST(StudyRunner, LargerBudgetsHoldTheLabelsOfSmallerOnes) {
   CohortCache cache;
   std::map<std::pair<std::string, int>, std::vector<std::set<std::pair<int, int>>>> bought;  // (plan, repeat) -> per budget
   for (const CellSpec& cell : expand_cells(study)) {
-    if (!cell.plan.labelled) continue;
+    // The mixed plan's outline share of 0.1 h buys no outline (a failed cell, tested elsewhere).
+    if (!cell.plan.labelled || cell.plan.is_mixed()) continue;
     const CellResult result = run_cell(cell, &cache);
     std::set<std::pair<int, int>> labels;
     for (const store::LabelCostRow& row : result.label_costs) labels.insert({row.subject, row.rater});
@@ -238,7 +246,7 @@ TEST(StudyRunner, TwoShardsMergedEqualOneFullRun) {
     shard.store_path = (folder / ("shard" + std::to_string(k) + ".db")).string();
     shard.shard = {k, 2};
     const RunSummary summary = run_study(study, shard);
-    EXPECT_EQ(summary.cells_shard, 5);
+    EXPECT_EQ(summary.cells_shard, 7);
     shards.push_back(shard.store_path);
   }
   const std::string merged = (folder / "merged.db").string();
@@ -270,7 +278,7 @@ bool run_until_killed(const std::string& study, const std::string& store, std::c
 
 TEST(StudyRunner, KilledRunsResumeWithoutLosingOrDuplicatingCells) {
   const fs::path folder = scratch("resume");
-  // Eight repeats (40 cells, a few seconds) so that random kills land inside the run.
+  // Eight repeats (56 cells, a few seconds) so that random kills land inside the run.
   const fs::path study_file = write_study(folder, tiny_study_text("labels", "[4, 8]", 8));
   const StudyOptions study = read_study_file(study_file.string());
   RunOptions reference;
@@ -298,6 +306,57 @@ TEST(StudyRunner, KilledRunsResumeWithoutLosingOrDuplicatingCells) {
   ASSERT_TRUE(finished) << "the run never finished";
   EXPECT_GE(kills, 2) << "the delays never interrupted a run; the test checked nothing";
   expect_same_store(expected, store::ResultsStore::open_existing(store_path).cells());
+}
+
+TEST(StudyRunner, AFailingCellIsRecordedAndTheRunGoesOn) {
+  const fs::path folder = scratch("failing");
+  // At 0.1 h the mixed plan's half share (180 s) buys no careful outline (about 200 s each).
+  StudyOptions study = read_study_file(write_study(folder, tiny_study_text("hours", "[0.1, 0.5]")).string());
+  RunOptions options;
+  options.store_path = (folder / "results.db").string();
+  const RunSummary summary = run_study(study, options);
+  EXPECT_GE(summary.failed, 1);
+  EXPECT_EQ(summary.done + summary.failed, summary.cells_study);
+  EXPECT_EQ(summary.failures.size(), static_cast<std::size_t>(summary.failed));
+  int failed = 0;
+  for (const store::CellRecord& cell : store::ResultsStore::open_existing(options.store_path).cells())
+    if (cell.status == "failed") {
+      ++failed;
+      EXPECT_EQ(cell.plan, "mix");
+      EXPECT_NE(cell.error.find("outline"), std::string::npos) << cell.error;
+    }
+  EXPECT_EQ(failed, summary.failed);
+  // Run again: the finished cells are skipped and only the failed ones are tried again.
+  const RunSummary again = run_study(study, options);
+  EXPECT_EQ(again.skipped, summary.done);
+  EXPECT_EQ(again.failed, summary.failed);
+}
+
+// Every example study in the repository reads and runs end to end at a tiny size, so the
+// examples cannot rot.
+TEST(StudyRunner, EveryExampleStudyRunsAtATinySize) {
+  int studies = 0;
+  for (const auto& entry : fs::directory_iterator(fs::path(FRUGAL_SOURCE_DIR) / "studies")) {
+    if (entry.path().extension() != ".yaml") continue;
+    SCOPED_TRACE(entry.path().string());
+    StudyOptions study = read_study_file(entry.path().string());
+    study.cohort.pool = std::min(study.cohort.pool, 40);
+    study.cohort.test = 5;
+    study.repeats = 1;
+    study.budgets = {study.budgets.back()};  // the largest: every plan buys at least two images
+    study.train.epochs = 1;
+    study.train.width = 4;
+    study.training_images = 0;
+    study.threads = 1;
+    if (study.scenario.geometry.dims == 2) study.scenario.geometry.size_2d = {32, 32};
+    RunOptions options;
+    options.store_path = (scratch("example_" + entry.path().stem().string()) / "results.db").string();
+    const RunSummary summary = run_study(study, options);
+    EXPECT_EQ(summary.failed, 0) << (summary.failures.empty() ? "" : summary.failures.front());
+    EXPECT_EQ(summary.done, summary.cells_study);
+    ++studies;
+  }
+  EXPECT_GE(studies, 2);
 }
 
 }  // namespace

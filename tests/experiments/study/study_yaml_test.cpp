@@ -22,7 +22,7 @@ const std::string kSource = FRUGAL_SOURCE_DIR;
 // The study text with @S@ and @R@ replaced by the absolute scenario and rater folders.
 std::string with_paths(std::string text) {
   const std::vector<std::pair<std::string, std::string>> folders{{"@S@", kSource + "/scenarios"},
-                                                                {"@R@", kSource + "/raters"}};
+                                                                 {"@R@", kSource + "/raters"}};
   for (const auto& [token, folder] : folders)
     for (std::size_t at = text.find(token); at != std::string::npos; at = text.find(token, at + folder.size()))
       text.replace(at, token.size(), folder);
@@ -91,159 +91,255 @@ std::vector<BadStudy> catalogue() {
       "    strong: careful-outlines\n"
       "    weak: quick-counts\n";
   return {
-      {"unknown_top_level_key", kHead + kCountPlan + "budgets: [1]\nbudget: [2]\n", 10,
+      {"unknown_top_level_key",
+       kHead + kCountPlan + "budgets: [1]\nbudget: [2]\n",
+       10,
        {"'budget' is not a key", "allowed:", "budgets", "repeats"}},
-      {"unknown_key_in_plan", kHead + kCountPlan + "    colour: red\nbudgets: [1]\n", 9,
+      {"unknown_key_in_plan",
+       kHead + kCountPlan + "    colour: red\nbudgets: [1]\n",
+       9,
        {"'plans.quick-counts.colour' is not a key", "allowed:", "raters_per_image"}},
       {"unknown_strategy",
        kHead + "plans:\n  quick-counts:\n    kind: count\n    rater: @R@/quick-reader.yaml\n"
                "    strategies: [count-map, count-mop]\nbudgets: [1]\n",
-       8, {"'plans.quick-counts.strategies'", "count-mop", "allowed:", "count-map", "line-filter"}},
+       8,
+       {"'plans.quick-counts.strategies'", "count-mop", "allowed:", "count-map", "line-filter"}},
       {"strategy_cannot_train_on_kind",
        kHead + "plans:\n  quick-counts:\n    kind: count\n    rater: @R@/quick-reader.yaml\n"
                "    strategies: [mask]\nbudgets: [1]\n",
-       8, {"'plans.quick-counts.strategies'", "mask", "outline", "allowed", "count-map, scalar"}},
+       8,
+       {"'plans.quick-counts.strategies'", "mask", "outline", "allowed", "count-map, scalar"}},
       {"mixed_strategy_on_plain_plan",
        kHead + "plans:\n  quick-counts:\n    kind: count\n    rater: @R@/quick-reader.yaml\n"
                "    strategies: [mixed]\nbudgets: [1]\n",
-       8, {"'plans.quick-counts.strategies'", "mixed", "strong", "allowed", "count-map, scalar"}},
+       8,
+       {"'plans.quick-counts.strategies'", "mixed", "strong", "allowed", "count-map, scalar"}},
       {"classical_strategy_on_labelled_plan",
        kHead + "plans:\n  quick-counts:\n    kind: count\n    rater: @R@/quick-reader.yaml\n"
                "    strategies: [line-filter]\nbudgets: [1]\n",
-       8, {"'plans.quick-counts.strategies'", "line-filter", "allowed", "count-map, scalar"}},
+       8,
+       {"'plans.quick-counts.strategies'", "line-filter", "allowed", "count-map, scalar"}},
       {"learned_strategy_on_plan_without_labels",
-       kHead + "plans:\n  no-labels:\n    kind: none\n    strategies: [count-map]\n", 7,
+       kHead + "plans:\n  no-labels:\n    kind: none\n    strategies: [count-map]\n",
+       7,
        {"'plans.no-labels.strategies'", "count-map", "allowed", "threshold, line-filter"}},
       {"plain_strategy_on_mixed_plan",
-       kHead + mixed_plans + "    strong_share: 0.25\n    strategies: [count-map]\nbudgets: [1]\n", 17,
+       kHead + mixed_plans + "    strong_share: 0.25\n    strategies: [count-map]\nbudgets: [1]\n",
+       17,
        {"'plans.outlines-plus-counts.strategies'", "count-map", "allowed", "mixed"}},
       {"mixed_plan_names_missing_strong_plan",
        kHead + "plans:\n  quick-counts:\n    kind: count\n    rater: @R@/quick-reader.yaml\n"
                "    strategies: [count-map]\n  outlines-plus-counts:\n    strong: fine-outlines\n"
                "    weak: quick-counts\n    strong_share: 0.25\n    strategies: [mixed]\nbudgets: [1]\n",
-       10, {"'plans.outlines-plus-counts.strong'", "fine-outlines", "allowed:", "kind outline"}},
+       10,
+       {"'plans.outlines-plus-counts.strong'", "fine-outlines", "allowed:", "kind outline"}},
       {"mixed_plan_weak_plan_is_outline",
        kHead + "plans:\n  careful-outlines:\n    kind: outline\n    rater: @R@/careful-reader.yaml\n"
                "    strategies: [mask]\n  outlines-twice:\n    strong: careful-outlines\n"
                "    weak: careful-outlines\n    strong_share: 0.25\n    strategies: [mixed]\nbudgets: [1]\n",
-       11, {"'plans.outlines-twice.weak'", "careful-outlines", "allowed:", "count, grade or presence"}},
-      {"mixed_plan_strong_share_zero", kHead + mixed_plans + "    strong_share: 0\n    strategies: [mixed]\nbudgets: [1]\n",
-       16, {"'plans.outlines-plus-counts.strong_share'", "= 0", "allowed (0, 1)"}},
+       11,
+       {"'plans.outlines-twice.weak'", "careful-outlines", "allowed:", "count, grade or presence"}},
+      {"mixed_plan_strong_share_zero",
+       kHead + mixed_plans + "    strong_share: 0\n    strategies: [mixed]\nbudgets: [1]\n",
+       16,
+       {"'plans.outlines-plus-counts.strong_share'", "= 0", "allowed (0, 1)"}},
       {"mixed_plan_strong_share_above_one",
-       kHead + mixed_plans + "    strong_share: 1.5\n    strategies: [mixed]\nbudgets: [1]\n", 16,
+       kHead + mixed_plans + "    strong_share: 1.5\n    strategies: [mixed]\nbudgets: [1]\n",
+       16,
        {"'plans.outlines-plus-counts.strong_share'", "= 1.5", "allowed (0, 1)"}},
-      {"mixed_plan_without_strong_share", kHead + mixed_plans + "    strategies: [mixed]\nbudgets: [1]\n", 13,
+      {"mixed_plan_without_strong_share",
+       kHead + mixed_plans + "    strategies: [mixed]\nbudgets: [1]\n",
+       13,
        {"'plans.outlines-plus-counts'", "missing the required key 'strong_share'"}},
-      {"budget_negative", kHead + kCountPlan + "budgets: [-1, 2]\n", 9,
+      {"budget_negative",
+       kHead + kCountPlan + "budgets: [-1, 2]\n",
+       9,
        {"'budgets'", "entry 1 = -1", "allowed a positive number of hours"}},
-      {"budget_zero", kHead + kCountPlan + "budgets: [0, 2]\n", 9,
+      {"budget_zero",
+       kHead + kCountPlan + "budgets: [0, 2]\n",
+       9,
        {"'budgets'", "entry 1 = 0", "allowed a positive number of hours"}},
-      {"budgets_not_ascending", kHead + kCountPlan + "budgets:\n  - 2\n  - 1\n", 9,
+      {"budgets_not_ascending",
+       kHead + kCountPlan + "budgets:\n  - 2\n  - 1\n",
+       9,
        {"'budgets'", "entry 2 = 1", "allowed: ascending budgets"}},
-      {"budget_buys_no_label", kHead + kCountPlan + "budgets: [0.001, 1]\n", 9,
+      {"budget_buys_no_label",
+       kHead + kCountPlan + "budgets: [0.001, 1]\n",
+       9,
        {"'budgets'", "0.001 hours buys no label of plan quick-counts", "24 s", "allowed: budgets that buy"}},
+      {"budget_buys_one_label_only",
+       kHead + kCountPlan + "    raters_per_image: 1\nbudgets: [0.005, 1]\n",
+       10,
+       {"'budgets'", "0.005 hours buys at most one image of plan quick-counts", "training needs 2 labels", "12 s",
+        "allowed: budgets that buy at least 2 images"}},
+      {"label_budget_buys_one_label_only",
+       kHead + kCountPlan + "    raters_per_image: 1\nbudget_unit: labels\nbudgets: [1, 5]\n",
+       11,
+       {"'budgets'", "1 labels buys at most one image", "allowed: budgets that buy at least 2 images"}},
       {"budget_share_buys_no_strong_label",
-       kHead + mixed_plans + "    strong_share: 0.25\n    strategies: [mixed]\nbudgets: [0.09]\n", 18,
+       kHead + mixed_plans + "    strong_share: 0.25\n    strategies: [mixed]\nbudgets: [0.09]\n",
+       18,
        {"'budgets'", "careful-outlines (its share 0.25 in plan outlines-plus-counts)", "allowed: budgets that buy"}},
-      {"label_budget_not_whole", kHead + kCountPlan + "budget_unit: labels\nbudgets: [2.5, 5]\n", 10,
+      {"label_budget_not_whole",
+       kHead + kCountPlan + "budget_unit: labels\nbudgets: [2.5, 5]\n",
+       10,
        {"'budgets'", "entry 1 = 2.5", "allowed", "whole number"}},
-      {"budget_unit_unknown", kHead + kCountPlan + "budget_unit: minutes\nbudgets: [1]\n", 9,
+      {"budget_unit_unknown",
+       kHead + kCountPlan + "budget_unit: minutes\nbudgets: [1]\n",
+       9,
        {"'budget_unit' is 'minutes'", "allowed: hours, labels"}},
-      {"budgets_missing", kHead + kCountPlan + "repeats: 1\n", 1, {"the top level", "missing the required key 'budgets'"}},
-      {"scenario_missing", "name: bad-study\ncohort: {pool: 40, test: 5}\n" + kCountPlan + "budgets: [1]\n", 1,
+      {"budgets_missing",
+       kHead + kCountPlan + "repeats: 1\n",
+       1,
+       {"the top level", "missing the required key 'budgets'"}},
+      {"scenario_missing",
+       "name: bad-study\ncohort: {pool: 40, test: 5}\n" + kCountPlan + "budgets: [1]\n",
+       1,
        {"the top level", "missing the required key 'scenario'"}},
       {"scenario_file_missing",
-       "name: bad-study\nscenario: @S@/no-such-scenario.yaml\ncohort: {pool: 40, test: 5}\n" + kCountPlan + "budgets: [1]\n",
-       2, {"'scenario'", "no-such-scenario.yaml, which is not a file", "allowed: a YAML file"}},
-      {"cohort_missing", "name: bad-study\nscenario: @S@/ageing-cohort-streaks-small.yaml\n" + kCountPlan + "budgets: [1]\n",
-       1, {"the top level", "missing the required key 'cohort'"}},
-      {"cohort_test_two",
-       "name: bad-study\nscenario: @S@/ageing-cohort-streaks-small.yaml\ncohort:\n  pool: 40\n  test: 2\n" + kCountPlan +
+       "name: bad-study\nscenario: @S@/no-such-scenario.yaml\ncohort: {pool: 40, test: 5}\n" + kCountPlan +
            "budgets: [1]\n",
-       5, {"cohort.test = 2", "allowed 3 to"}},
+       2,
+       {"'scenario'", "no-such-scenario.yaml, which is not a file", "allowed: a YAML file"}},
+      {"cohort_missing",
+       "name: bad-study\nscenario: @S@/ageing-cohort-streaks-small.yaml\n" + kCountPlan + "budgets: [1]\n",
+       1,
+       {"the top level", "missing the required key 'cohort'"}},
+      {"cohort_test_two",
+       "name: bad-study\nscenario: @S@/ageing-cohort-streaks-small.yaml\ncohort:\n  pool: 40\n  test: 2\n" +
+           kCountPlan + "budgets: [1]\n",
+       5,
+       {"cohort.test = 2", "allowed 3 to"}},
       {"cohort_pool_zero",
        "name: bad-study\nscenario: @S@/ageing-cohort-streaks-small.yaml\ncohort:\n  pool: 0\n  test: 5\n" + kCountPlan +
            "budgets: [1]\n",
-       4, {"cohort.pool = 0", "allowed 1 to 500000"}},
+       4,
+       {"cohort.pool = 0", "allowed 1 to 500000"}},
       {"cohort_unknown_key",
        "name: bad-study\nscenario: @S@/ageing-cohort-streaks-small.yaml\ncohort:\n  pool: 40\n  test: 5\n  tests: 5\n" +
            kCountPlan + "budgets: [1]\n",
-       6, {"'cohort.tests' is not a key", "allowed:", "test_rescans"}},
+       6,
+       {"'cohort.tests' is not a key", "allowed:", "test_rescans"}},
       {"decorrelated_test_without_confounder",
        "name: bad-study\nscenario: @S@/ageing-cohort-streaks-small.yaml\ncohort:\n  pool: 40\n  test: 5\n"
        "  decorrelated_test: true\n" +
            kCountPlan + "budgets: [1]\n",
-       6, {"'cohort.decorrelated_test'", "confounder", "allowed: false"}},
-      {"repeats_wrong_type", kHead + kCountPlan + "budgets: [1]\nrepeats: three\n", 10,
+       6,
+       {"'cohort.decorrelated_test'", "confounder", "allowed: false"}},
+      {"repeats_wrong_type",
+       kHead + kCountPlan + "budgets: [1]\nrepeats: three\n",
+       10,
        {"'repeats' is 'three', which is not an integer", "allowed: a whole decimal number"}},
       {"repeats_zero", kHead + kCountPlan + "budgets: [1]\nrepeats: 0\n", 10, {"'repeats' = 0", "allowed 1 to 1000"}},
       {"duplicate_plan_names",
-       kHead + kCountPlan + "  quick-counts:\n    kind: count\n    rater: @R@/careful-reader.yaml\n"
-                            "    strategies: [scalar]\nbudgets: [1]\n",
-       9, {"'plans.quick-counts' appears twice", "first on line 5", "allowed:", "each once"}},
+       kHead + kCountPlan +
+           "  quick-counts:\n    kind: count\n    rater: @R@/careful-reader.yaml\n"
+           "    strategies: [scalar]\nbudgets: [1]\n",
+       9,
+       {"'plans.quick-counts' appears twice", "first on line 5", "allowed:", "each once"}},
       {"plans_empty", kHead + "plans: {}\nbudgets: [1]\n", 4, {"'plans' is empty", "allowed:"}},
       {"plans_not_a_mapping", kHead + "plans: [quick-counts]\nbudgets: [1]\n", 4, {"'plans'", "must be a mapping"}},
       {"mixed_plan_names_itself",
-       kHead + kCountPlan + "  mix:\n    strong: mix\n    weak: quick-counts\n    strong_share: 0.5\n"
-                            "    strategies: [mixed]\nbudgets: [1]\n",
-       10, {"'plans.mix.strong'", "'mix'", "allowed: a plan of kind outline"}},
+       kHead + kCountPlan +
+           "  mix:\n    strong: mix\n    weak: quick-counts\n    strong_share: 0.5\n"
+           "    strategies: [mixed]\nbudgets: [1]\n",
+       10,
+       {"'plans.mix.strong'", "'mix'", "allowed: a plan of kind outline"}},
       {"grade_bins_differ_from_training",
        kHead + "plans:\n  quick-grades:\n    kind: grade\n    rater: @R@/quick-reader.yaml\n"
                "    strategies: [grade-bounds]\nbudgets: [1]\ntrain:\n  grading: {bin_edges: [0, 0.05]}\n",
-       7, {"'plans.quick-grades.rater'", "[0, 0.03, 0.1, 0.25, 0.5]", "[0, 0.05]", "allowed: the same bins"}},
+       7,
+       {"'plans.quick-grades.rater'", "[0, 0.03, 0.1, 0.25, 0.5]", "[0, 0.05]", "allowed: the same bins"}},
       {"train_not_a_mapping", kHead + kCountPlan + "budgets: [1]\ntrain: fast\n", 10, {"'train'", "must be a mapping"}},
       {"raters_per_image_above_panel",
-       kHead + kCountPlan + "    raters_per_image: 3\nbudgets: [1]\n", 9,
+       kHead + kCountPlan + "    raters_per_image: 3\nbudgets: [1]\n",
+       9,
        {"'plans.quick-counts.raters_per_image' = 3", "allowed 1 to 2", "panel"}},
-      {"raters_per_image_zero", kHead + kCountPlan + "    raters_per_image: 0\nbudgets: [1]\n", 9,
+      {"raters_per_image_zero",
+       kHead + kCountPlan + "    raters_per_image: 0\nbudgets: [1]\n",
+       9,
        {"'plans.quick-counts.raters_per_image' = 0", "allowed 1 to 2"}},
       {"scope_on_outline_plan",
        kHead + "plans:\n  careful-outlines:\n    kind: outline\n    rater: @R@/careful-reader.yaml\n"
                "    scope: image\n    strategies: [mask]\nbudgets: [1]\n",
-       8, {"'plans.careful-outlines.scope'", "count plans only", "allowed"}},
-      {"scope_unknown", kHead + kCountPlan + "    scope: voxel\nbudgets: [1]\n", 9,
+       8,
+       {"'plans.careful-outlines.scope'", "count plans only", "allowed"}},
+      {"scope_unknown",
+       kHead + kCountPlan + "    scope: voxel\nbudgets: [1]\n",
+       9,
        {"'plans.quick-counts.scope'", "voxel", "allowed"}},
       {"kind_unknown",
        kHead + "plans:\n  quick-counts:\n    kind: tally\n    rater: @R@/quick-reader.yaml\n"
                "    strategies: [count-map]\nbudgets: [1]\n",
-       6, {"'plans.quick-counts.kind' is 'tally'", "allowed: none, presence, count, grade, points, partial_mask, outline"}},
+       6,
+       {"'plans.quick-counts.kind' is 'tally'", "allowed: none, presence, count, grade, points, partial, outline"}},
+      {"kind_partial_mask_is_not_a_kind_name",
+       kHead + "plans:\n  seeds:\n    kind: partial_mask\n    rater: @R@/quick-reader.yaml\n"
+               "    strategies: [partial]\nbudgets: [1]\n",
+       6,
+       {"'plans.seeds.kind' is 'partial_mask'", "allowed:", "partial"}},
       {"kind_missing",
-       kHead + "plans:\n  quick-counts:\n    rater: @R@/quick-reader.yaml\n    strategies: [count-map]\nbudgets: [1]\n", 5,
+       kHead + "plans:\n  quick-counts:\n    rater: @R@/quick-reader.yaml\n    strategies: [count-map]\nbudgets: [1]\n",
+       5,
        {"'plans.quick-counts'", "missing the required key 'kind'"}},
       {"rater_file_missing",
        kHead + "plans:\n  quick-counts:\n    kind: count\n    rater: @R@/no-such-reader.yaml\n"
                "    strategies: [count-map]\nbudgets: [1]\n",
-       7, {"'plans.quick-counts.rater'", "not a file", "allowed: a YAML file"}},
+       7,
+       {"'plans.quick-counts.rater'", "not a file", "allowed: a YAML file"}},
       {"strategies_empty",
-       kHead + "plans:\n  quick-counts:\n    kind: count\n    rater: @R@/quick-reader.yaml\n    strategies: []\nbudgets: [1]\n",
-       8, {"'plans.quick-counts.strategies' is empty", "allowed:"}},
-      {"quantity_unknown", kHead + kCountPlan + "budgets: [1]\nquantities: [count, volume]\n", 10,
+       kHead + "plans:\n  quick-counts:\n    kind: count\n    rater: @R@/quick-reader.yaml\n    strategies: "
+               "[]\nbudgets: [1]\n",
+       8,
+       {"'plans.quick-counts.strategies' is empty", "allowed:"}},
+      {"quantity_unknown",
+       kHead + kCountPlan + "budgets: [1]\nquantities: [count, volume]\n",
+       10,
        {"'quantities' names 'volume'", "allowed: count, affected_fraction, burden_mm3, grade, presence"}},
-      {"quantities_empty", kHead + kCountPlan + "budgets: [1]\nquantities: []\n", 10, {"'quantities' is empty", "allowed:"}},
-      {"train_epochs_zero", kHead + kCountPlan + "budgets: [1]\ntrain:\n  patience: 2\n  epochs: 0\n", 12,
+      {"quantities_empty",
+       kHead + kCountPlan + "budgets: [1]\nquantities: []\n",
+       10,
+       {"'quantities' is empty", "allowed:"}},
+      {"train_epochs_zero",
+       kHead + kCountPlan + "budgets: [1]\ntrain:\n  patience: 2\n  epochs: 0\n",
+       12,
        {"train.epochs = 0", "at least 1"}},
-      {"train_unknown_key", kHead + kCountPlan + "budgets: [1]\ntrain:\n  epochs: 1\n  epoch: 2\n", 12,
+      {"train_unknown_key",
+       kHead + kCountPlan + "budgets: [1]\ntrain:\n  epochs: 1\n  epoch: 2\n",
+       12,
        {"train.epoch", "unknown key", "allowed:", "epochs", "batch_size"}},
-      {"train_unknown_nested_key", kHead + kCountPlan + "budgets: [1]\ntrain:\n  augmentation:\n    flip: true\n", 12,
+      {"train_unknown_nested_key",
+       kHead + kCountPlan + "budgets: [1]\ntrain:\n  augmentation:\n    flip: true\n",
+       12,
        {"train.augmentation.flip", "unknown key", "allowed:", "flips"}},
-      {"train_strategy_set", kHead + kCountPlan + "budgets: [1]\ntrain:\n  epochs: 1\n  strategy: mask\n", 12,
+      {"train_strategy_set",
+       kHead + kCountPlan + "budgets: [1]\ntrain:\n  epochs: 1\n  strategy: mask\n",
+       12,
        {"'train.strategy'", "plans.<name>.strategies", "allowed"}},
-      {"train_threads_set", kHead + kCountPlan + "budgets: [1]\ntrain:\n  threads: 4\n", 11,
+      {"train_threads_set",
+       kHead + kCountPlan + "budgets: [1]\ntrain:\n  threads: 4\n",
+       11,
        {"'train.threads'", "top level", "allowed"}},
       {"seed_negative",
        "name: bad-study\nscenario: @S@/ageing-cohort-streaks-small.yaml\nseed: -1\ncohort: {pool: 40, test: 5}\n" +
            kCountPlan + "budgets: [1]\n",
-       3, {"'seed' is '-1'", "allowed: a whole number from 0 to 18446744073709551615"}},
+       3,
+       {"'seed' is '-1'", "allowed: a whole number from 0 to 18446744073709551615"}},
       {"seed_too_large",
        "name: bad-study\nscenario: @S@/ageing-cohort-streaks-small.yaml\nseed: 18446744073709551616\n"
        "cohort: {pool: 40, test: 5}\n" +
            kCountPlan + "budgets: [1]\n",
-       3, {"'seed'", "allowed: a whole number from 0 to 18446744073709551615"}},
-      {"name_empty", "name: ''\nscenario: @S@/ageing-cohort-streaks-small.yaml\ncohort: {pool: 40, test: 5}\n" +
-                         kCountPlan + "budgets: [1]\n",
-       1, {"'name' is empty", "allowed:"}},
+       3,
+       {"'seed'", "allowed: a whole number from 0 to 18446744073709551615"}},
+      {"name_empty",
+       "name: ''\nscenario: @S@/ageing-cohort-streaks-small.yaml\ncohort: {pool: 40, test: 5}\n" + kCountPlan +
+           "budgets: [1]\n",
+       1,
+       {"'name' is empty", "allowed:"}},
       {"threads_zero", kHead + kCountPlan + "budgets: [1]\nthreads: 0\n", 10, {"'threads' = 0", "allowed 1 to 256"}},
-      {"training_images_negative", kHead + kCountPlan + "budgets: [1]\ntraining_images: -5\n", 10,
+      {"training_images_negative",
+       kHead + kCountPlan + "budgets: [1]\ntraining_images: -5\n",
+       10,
        {"'training_images' = -5", "allowed 0"}},
   };
 }
@@ -259,7 +355,8 @@ TEST_P(StudyYamlBadStudies, AreRejectedWithFileLineKeyAndWhatIsAllowed) {
   const std::string where = file + ":" + std::to_string(c.line) + ":";
   EXPECT_EQ(message.rfind(where, 0), 0U) << "expected " << where << " at the start of: " << message;
   // Key path and what is allowed: common practice, no source.
-  for (const std::string& word : c.words) EXPECT_NE(message.find(word), std::string::npos) << word << " in: " << message;
+  for (const std::string& word : c.words)
+    EXPECT_NE(message.find(word), std::string::npos) << word << " in: " << message;
 }
 
 INSTANTIATE_TEST_SUITE_P(Catalogue, StudyYamlBadStudies, ::testing::ValuesIn(catalogue()),
@@ -351,17 +448,37 @@ TEST(StudyYamlExpandCells, AgeingCohortGivesEveryCellOnceWithDistinctKeys) {
 
 TEST(StudyYamlExpandCells, SmallStudyCountsFollowTheFormula) {
   std::string file;
-  const std::string text = kHead +
-                           "plans:\n"
-                           "  quick-counts: {kind: count, rater: @R@/quick-reader.yaml, strategies: [count-map, scalar]}\n"
-                           "  no-labels: {kind: none, strategies: [threshold, line-filter]}\n"
-                           "budgets: [1, 2, 4]\n"
-                           "repeats: 2\n";
+  const std::string text =
+      kHead +
+      "plans:\n"
+      "  quick-counts: {kind: count, rater: @R@/quick-reader.yaml, strategies: [count-map, scalar]}\n"
+      "  no-labels: {kind: none, strategies: [threshold, line-filter]}\n"
+      "budgets: [1, 2, 4]\n"
+      "repeats: 2\n";
   ASSERT_EQ(read_error("small_counts", text, file), "");
   const StudyOptions study = read_study_file(file);
   // (2 strategies x 3 budgets + 2 classical) x 2 repeats, by hand; the formula is cell.h's.
   EXPECT_EQ(expand_cells(study).size(), 16U);
   EXPECT_EQ(expand_cells(study).size(), expected_cells(study));
+}
+
+// Every label kind a plan can name reads with a strategy that trains on it (learner.h's table).
+TEST(StudyYamlExpandCells, EveryLabelKindMakesAPlan) {
+  const std::vector<std::pair<std::string, std::string>> kinds{{"presence", "presence-mil"}, {"count", "count-map"},
+                                                               {"grade", "grade-bounds"},    {"points", "points"},
+                                                               {"partial", "partial"},       {"outline", "mask"}};
+  for (const auto& [kind, strategy] : kinds) {
+    SCOPED_TRACE(kind);
+    std::string file;
+    const std::string text = kHead + "plans:\n  one:\n    kind: " + kind + "\n    rater: @R@/careful-reader.yaml\n" +
+                             "    strategies: [" + strategy + "]\nbudgets: [1]\nrepeats: 1\n";
+    EXPECT_EQ(read_error("kind_" + kind, text, file), "");
+    if (::testing::Test::HasFailure()) continue;
+    const StudyOptions study = read_study_file(file);
+    ASSERT_EQ(study.plans.size(), 1U);
+    EXPECT_EQ(to_string(study.plans.front().kind), kind);
+    EXPECT_EQ(expand_cells(study).size(), 1U);  // one strategy x one budget x one repeat: cell.h
+  }
 }
 
 TEST(StudyYamlCellKey, IgnoresThreadsAndFollowsTheBudget) {
