@@ -4,6 +4,7 @@
 #include <cstdio>
 
 #include "experiments/study/study_summary.h"
+#include "phantoms/text_format.h"
 
 namespace frugal::cli {
 namespace {
@@ -32,7 +33,7 @@ std::string format_study_table(const std::vector<store::CellRecord>& cells, cons
                     "  " + pad(name + " [95% CI]", 26) + pad("ICC(A,1)", 9, true) + pad("repeats", 8, true) + "\n";
   for (std::size_t i = 0; i < summary.rows.size(); ++i) {
     const study::ArmBudget& row = summary.rows[i];
-    const std::string budget = row.budget <= 0.0 ? "none" : fixed(row.budget, 0) + (row.budget_unit == "hours" ? " h" : "");
+    const std::string budget = row.budget <= 0.0 ? "none" : format_number(row.budget) + (row.budget_unit == "hours" ? " h" : "");
     std::string repeats = std::to_string(row.repeats);
     if (row.failed > 0) repeats += " (" + std::to_string(row.failed) + " failed)";
     out += pad(row.plan + " / " + row.strategy, 34) + pad(budget, 10, true) + pad(fixed(row.mean_hours, 1), 8, true) +
@@ -47,7 +48,8 @@ std::string format_study_table(const std::vector<store::CellRecord>& cells, cons
       if (d.pairs < 2) verdict = "fewer than 2 paired repeats: no interval";
       else if (d.supported)
         verdict = ((d.mean < 0.0) == lower_is_better ? d.first : d.second) + " is better";
-      out += "  " + pad(fixed(d.budget, 0) + " h", 7) + pad(d.first + " - " + d.second, 58) +
+      const std::string unit = summary.rows.front().budget_unit == "hours" ? " h" : " labels";
+      out += "  " + pad(format_number(d.budget) + unit, 7) + pad(d.first + " - " + d.second, 58) +
              pad(fixed(d.mean, 3) + " [" + fixed(d.lower, 3) + ", " + fixed(d.upper, 3) + "]", 26) + verdict + "\n";
     }
   }

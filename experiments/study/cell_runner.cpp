@@ -306,6 +306,19 @@ std::vector<int> purchase_order(std::uint64_t seed, int repeat, int pool) {
   return order;
 }
 
+CellResult cell_record(const CellSpec& spec, const std::string& status) {
+  CellResult result;
+  result.key = cell_key(spec);
+  result.plan = spec.plan.name;
+  result.strategy = learn::to_string(spec.train.strategy);
+  result.budget = spec.budget;
+  result.budget_unit = to_string(spec.budget_unit);
+  result.repeat = spec.repeat;
+  result.spec_json = to_json(spec).dump();
+  result.status = status;
+  return result;
+}
+
 CellResult run_cell(const CellSpec& spec, CohortCache* shared_cache, const std::function<void(const CellProgress&)>& progress) {
   const auto report = [&](const std::string& stage, int epoch = 0, int epochs = 0) {
     if (progress) progress({stage, epoch, epochs});
@@ -315,15 +328,7 @@ CellResult run_cell(const CellSpec& spec, CohortCache* shared_cache, const std::
   FRUGAL_CHECK(spec.repeat >= 0 && spec.repeat < kMaxRepeats && spec.cohort.pool <= kMaxPool &&
                spec.cohort.test <= kMaxTest);
 
-  CellResult result;
-  result.key = cell_key(spec);
-  result.plan = spec.plan.name;
-  result.strategy = learn::to_string(spec.train.strategy);
-  result.budget = spec.budget;
-  result.budget_unit = to_string(spec.budget_unit);
-  result.repeat = spec.repeat;
-  result.spec_json = to_json(spec).dump();
-  result.status = "done";
+  CellResult result = cell_record(spec, "done");
 
   // Labels, bought along the repeat's order.
   report("label");

@@ -88,6 +88,9 @@ struct CellProgress {
 // same images.
 std::vector<int> purchase_order(std::uint64_t seed, int repeat, int pool);
 
+// A cell's identity columns (key, factors, spec) with no results yet.
+CellResult cell_record(const CellSpec& spec, const std::string& status);
+
 // Throws UserError for a failure the study can cause (training diverged, labels the strategy
 // cannot use); the runner records it and goes on.
 CellResult run_cell(const CellSpec& spec, CohortCache* cache = nullptr,

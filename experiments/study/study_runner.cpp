@@ -90,15 +90,7 @@ RunSummary run_study(const StudyOptions& study, const RunOptions& options) {
       });
     } catch (const UserError& error) {
       // What the study can cause (a diverging run, say) is recorded; the run goes on.
-      result = CellResult();
-      result.key = cell_key(cell);
-      result.plan = cell.plan.name;
-      result.strategy = learn::to_string(cell.train.strategy);
-      result.budget = cell.budget;
-      result.budget_unit = to_string(cell.budget_unit);
-      result.repeat = cell.repeat;
-      result.spec_json = to_json(cell).dump();
-      result.status = "failed";
+      result = cell_record(cell, "failed");
       result.error = error.what();
     }
     results.write_cell(result);
