@@ -9,10 +9,12 @@ packages=(
   libnifti2-dev libniftiio-dev libznz-dev zlib1g-dev
   libcli11-dev nlohmann-json3-dev libsqlite3-dev libssl-dev
   libgtest-dev libgmock-dev libbenchmark-dev
+  # libFuzzer and the sanitizer runtimes for clang (scripts/fuzz.sh).
+  clang libclang-rt-14-dev
   # The learning part (CPU libtorch) and TorchScript modules scripted inside its tests.
   libtorch-dev python3-torch
   # Reference libraries that the tests compare against.
-  python3 python3-numpy python3-scipy python3-sklearn python3-skimage python3-nibabel python3-opencv
+  python3 python3-numpy python3-scipy python3-sklearn python3-skimage python3-nibabel python3-opencv python3-jsonschema
 )
 
 missing=()
