@@ -11,6 +11,7 @@
 #include "corruptors/rater_yaml.h"
 #include "experiments/calibration/calibration.h"
 #include "frugal_version.h"
+#include "phantoms/regular_file.h"
 #include "phantoms/scenario_yaml.h"
 #include "phantoms/user_error.h"
 #include "phantoms/whole_file.h"
@@ -40,6 +41,8 @@ void add_calibrate_command(CLI::App& app) {
   command->add_option("--out", arguments->out, "Write the calibrated rater model here (YAML)")->required();
   command->add_flag("--json", arguments->json, "Print the result as JSON");
   command->callback([arguments] {
+    // Checked before the calibration runs, which can take minutes.
+    require_writable_output(arguments->out, OutputKind::file, "a new or regular file for the rater YAML");
     const ScenarioOptions scenario = read_scenario_file(arguments->scenario_file);
     const RaterOptions rater = read_rater_file(arguments->rater_file);
     arguments->options.statistic = calibration_statistic_from_string(arguments->statistic);

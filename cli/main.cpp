@@ -166,5 +166,10 @@ int main(int argc, char** argv) {
     std::fprintf(stderr, "frugal: error: %s\n", error.what());
     return 1;
   }
+  // A summary that never reached standard output (a full disk behind a redirection) is not success.
+  if (std::fflush(stdout) != 0 || std::ferror(stdout) != 0) {
+    std::fprintf(stderr, "frugal: error: standard output: writing failed (the disk is full or the file too large)\n");
+    return 2;
+  }
   return 0;
 }

@@ -18,6 +18,7 @@
 #include "experiments/learn/learner.h"
 #include "experiments/scoring/predictions_table.h"
 #include "frugal_version.h"
+#include "phantoms/folder_manifest.h"
 #include "phantoms/nifti_io.h"
 #include "phantoms/phantom_set_reader.h"
 #include "phantoms/truth_tables.h"
@@ -62,8 +63,10 @@ std::string stem_of(const std::string& path) {
 
 // Phantom set folders give their images in truth.csv order with subject and rescan; files are
 // taken as they are.
-std::vector<Input> gather_inputs(const std::vector<std::string>& paths) {
+// `fingerprints` receives each phantom set's fingerprint, so that score can tell whose predictions these are.
+std::vector<Input> gather_inputs(const std::vector<std::string>& paths, nlohmann::json& fingerprints) {
   std::vector<Input> inputs;
+  fingerprints = nlohmann::json::array();
   for (const std::string& path : paths) {
     std::error_code ignored;
     if (fs::is_directory(path, ignored)) {
@@ -71,7 +74,10 @@ std::vector<Input> gather_inputs(const std::vector<std::string>& paths) {
         throw UserError(path +
                         ": a folder without truth.csv; allowed: a phantom set folder (frugal phantoms) or "
                         "NIfTI files (.nii, .nii.gz)");
+      read_folder_manifest(path, "phantom_set",
+                           "a phantom set folder (frugal phantoms) or NIfTI files (.nii, .nii.gz)");
       const PhantomSetIndex set = read_phantom_set(path);
+      fingerprints.push_back({{"folder", path}, {"fingerprint", phantom_set_fingerprint(path)}});
       for (const TruthRow& row : set.rows())
         inputs.push_back({row.subject, row.rescan, row.image_path, stem_of(row.image_path)});
     } else if (fs::is_regular_file(path, ignored) && is_nifti(path)) {
@@ -115,16 +121,14 @@ void run_predict(const PredictArguments& arguments) {
   const auto start = std::chrono::steady_clock::now();
   if (arguments.threads < 1 || arguments.threads > 256)
     throw UserError("--threads " + std::to_string(arguments.threads) + ": allowed 1 to 256");
+  require_output_folder(arguments.out, "predictions", arguments.overwrite);
   const learn::TrainedModel model = learn::TrainedModel::load(arguments.model);
   const learn::Strategy strategy = model.strategy();
-  const std::vector<Input> inputs = gather_inputs(arguments.images);
+  nlohmann::json fingerprints;
+  const std::vector<Input> inputs = gather_inputs(arguments.images, fingerprints);
 
   const fs::path root(arguments.out);
   std::error_code ignored;
-  if (fs::exists(root / "manifest.json", ignored) && !arguments.overwrite)
-    throw UserError(arguments.out +
-                    ": already holds finished predictions (manifest.json); choose another folder or "
-                    "pass --overwrite");
   if (arguments.overwrite) remove_predictions(root);
   const scoring::MapKind map_kind = arguments.no_maps ? scoring::MapKind::none : map_kind_of(strategy);
   fs::create_directories(map_kind == scoring::MapKind::none ? root : root / "maps", ignored);
@@ -186,6 +190,7 @@ void run_predict(const PredictArguments& arguments) {
   manifest["model"] = arguments.model;
   manifest["strategy"] = learn::to_string(strategy);
   manifest["images"] = arguments.images;
+  manifest["phantom_sets"] = fingerprints;  // score refuses a set whose fingerprint is not here
   manifest["rows"] = inputs.size();
   manifest["maps"] = maps_written;
   manifest["map_kind"] = scoring::to_string(map_kind);

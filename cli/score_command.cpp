@@ -4,6 +4,7 @@
 #include <CLI/CLI.hpp>
 #include <cmath>
 #include <cstdio>
+#include <filesystem>
 #include <memory>
 #include <nlohmann/json.hpp>
 #include <string>
@@ -12,7 +13,9 @@
 #include "corruptors/rater_yaml.h"
 #include "experiments/scoring/predictions_table.h"
 #include "experiments/scoring/scoring.h"
+#include "phantoms/folder_manifest.h"
 #include "phantoms/phantom_set_reader.h"
+#include "phantoms/regular_file.h"
 #include "phantoms/user_error.h"
 #include "phantoms/whole_file.h"
 
@@ -121,11 +124,38 @@ std::string format_report(const scoring::ScoreReport& report) {
   return out;
 }
 
+// frugal predict records the fingerprint of each phantom set it read; a table from another set
+// (another seed, size or scenario, same subject ids) would otherwise be scored without a word.
+// A table without a predict manifest beside it (another method's) is checked by subject ids only.
+void check_predictions_belong_to(const scoring::PredictionsTable& predictions, const std::string& phantoms) {
+  const std::string folder = predictions.folder.empty() ? "." : predictions.folder;
+  const std::filesystem::path manifest_file = std::filesystem::path(folder) / "manifest.json";
+  std::error_code ignored;
+  if (!std::filesystem::exists(manifest_file, ignored)) return;
+  const nlohmann::json manifest =
+      read_folder_manifest(folder, "predictions", "the folder frugal predict wrote, or a table alone");
+  const auto sets = manifest.find("phantom_sets");
+  if (sets == manifest.end() || !sets->is_array() || sets->empty()) return;  // images given as files
+  const std::string fingerprint = phantom_set_fingerprint(phantoms);
+  std::string folders;
+  for (const nlohmann::json& set : *sets) {
+    if (set.is_object() && set.value("fingerprint", std::string()) == fingerprint) return;
+    folders += (folders.empty() ? "" : ", ") + (set.is_object() ? set.value("folder", std::string("?")) : "?");
+  }
+  throw UserError(predictions.source + ": predicted from the phantom set " + folders + ", not " + phantoms +
+                  " (its truth.csv differs: another seed, size or scenario); allowed: the phantom set the images "
+                  "came from");
+}
+
 void run_score(ScoreArguments& arguments) {
   if (!arguments.rater_file.empty()) arguments.options.grading = read_rater_file(arguments.rater_file).grading;
   if (const std::string error = arguments.options.validate(); !error.empty()) throw UserError(error);
+  if (!arguments.json_file.empty())
+    require_writable_output(arguments.json_file, OutputKind::file, "a new or regular file for the JSON report");
   const scoring::PredictionsTable predictions = scoring::read_predictions_table(arguments.predictions);
+  read_folder_manifest(arguments.phantoms, "phantom_set", "a phantom set folder (frugal phantoms)");
   const PhantomSetIndex truth = read_phantom_set(arguments.phantoms);
+  check_predictions_belong_to(predictions, arguments.phantoms);
   const scoring::ScoreReport report = scoring::score_predictions(predictions, truth, arguments.options);
   if (!arguments.json_file.empty()) {
     WholeFile file(arguments.json_file);

@@ -22,7 +22,9 @@
 #include "experiments/learn/learner.h"
 #include "experiments/learn/train_options_json.h"
 #include "frugal_version.h"
+#include "phantoms/folder_manifest.h"
 #include "phantoms/nifti_io.h"
+#include "phantoms/regular_file.h"
 #include "phantoms/phantom_set_reader.h"
 #include "phantoms/user_error.h"
 #include "phantoms/whole_file.h"
@@ -119,6 +121,10 @@ void run_train(TrainArguments& arguments) {
   options.augmentation.flips = !arguments.no_flips;
   if (arguments.rater < -1)
     throw UserError("--rater " + std::to_string(arguments.rater) + ": allowed 0, 1, ... (a panel member)");
+  // The checkpoint, its sidecar and their temporary names, before hours of training.
+  for (const char* suffix : {"", ".json"})
+    require_writable_output(arguments.out + suffix, OutputKind::file,
+                            "a new or regular file for the checkpoint (MODEL.pt) and its sidecar (MODEL.pt.json)");
 
   // Checked before any file is read, and again once the grading bins are known.
   if (const std::string error = options.validate(); !error.empty()) throw UserError(as_option_message(error));
@@ -135,6 +141,7 @@ void run_train(TrainArguments& arguments) {
         "strategy " +
         arguments.strategy + " trains from one label set");
 
+  read_folder_manifest(arguments.phantoms, "phantom_set", "a phantom set folder (frugal phantoms)");
   const PhantomSetIndex phantoms = read_phantom_set(arguments.phantoms);
   std::vector<LabelSet> label_sets;
   LabelSetReadOptions read_options;

@@ -1,9 +1,19 @@
 # One-line helpers so that every library, test and benchmark is declared the same way.
 
+# Warnings, and the sanitizers under FRUGAL_SANITIZE or FRUGAL_FUZZ: every frugal target calls this.
 function(frugal_set_warnings target)
   target_compile_options(${target} PRIVATE -Wall -Wextra -Wpedantic -Wshadow)
   if(FRUGAL_WARNINGS_AS_ERRORS)
     target_compile_options(${target} PRIVATE -Werror)
+  endif()
+  if(FRUGAL_SANITIZE OR FRUGAL_FUZZ)
+    # Undefined behaviour aborts instead of printing and going on, so it counts as a failure.
+    set(sanitizers -fsanitize=address,undefined -fno-sanitize-recover=undefined)
+    target_compile_options(${target} PRIVATE ${sanitizers} -fno-omit-frame-pointer)
+    target_link_options(${target} PRIVATE ${sanitizers})
+  endif()
+  if(FRUGAL_FUZZ)
+    target_compile_options(${target} PRIVATE -fsanitize=fuzzer-no-link)  # libFuzzer's coverage
   endif()
 endfunction()
 
@@ -37,8 +47,12 @@ function(frugal_add_test name source)
   # other build trees never share temporary file names.
   set(scratch "${CMAKE_BINARY_DIR}/test-scratch/${name}")
   file(MAKE_DIRECTORY "${scratch}")
+  # Each test carries its part's folder name (phantoms, measure, ...) as a label, so that
+  # scripts/sanitize.sh can run the torch-free parts alone.
+  get_filename_component(part "${CMAKE_CURRENT_SOURCE_DIR}" NAME)
   gtest_discover_tests(${name} DISCOVERY_TIMEOUT 60
-                       PROPERTIES TIMEOUT 600 PROCESSORS ${ARG_PROCESSORS} ENVIRONMENT "TEST_TMPDIR=${scratch}")
+                       PROPERTIES TIMEOUT 600 PROCESSORS ${ARG_PROCESSORS} LABELS ${part}
+                                  ENVIRONMENT "TEST_TMPDIR=${scratch}")
 endfunction()
 
 # frugal_add_python_test(<name> <script> [args...]): a reference check written against the

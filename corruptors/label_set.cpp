@@ -11,6 +11,7 @@
 #include "corruptors/rater_yaml.h"
 #include "frugal_version.h"
 #include "phantoms/text_format.h"
+#include "phantoms/folder_manifest.h"
 #include "phantoms/nifti_io.h"
 #include "phantoms/ordered_pipeline.h"
 #include "phantoms/phantom.h"
@@ -79,9 +80,7 @@ LabelSetSummary write_label_set(const ScenarioOptions& scenario, const std::stri
   if (std::string error = rater.validate(); !error.empty()) throw UserError(rater_file + ": " + error);
   const auto start = std::chrono::steady_clock::now();
   const fs::path root(options.out_dir);
-  if (fs::exists(root / "manifest.json") && !options.overwrite)
-    throw UserError(options.out_dir + ": already holds a finished label set (manifest.json); choose another folder "
-                    "or pass --overwrite");
+  require_output_folder(options.out_dir, "label_set", options.overwrite);
   std::error_code ignored;
   if (options.overwrite) remove_label_set(root);
   fs::create_directories(root / "masks", ignored);

@@ -35,9 +35,18 @@ std::string partial_name(const std::string& path) {
   throw UserError(path + ": NIfTI file names must end in .nii or .nii.gz");
 }
 
+std::uintmax_t decompressed_size(const std::string& path);
+bool ends_with(const std::string& text, const std::string& suffix);
+
 template <class Voxel>
 void write_any(const Image<Voxel>& image, const std::string& path, int datatype) {
   const std::string temporary = partial_name(path);
+  require_writable_output(path, OutputKind::file, "a new or regular NIfTI file");
+  std::error_code examined;
+  const auto temporary_type = std::filesystem::status(temporary, examined).type();
+  if (temporary_type != std::filesystem::file_type::not_found && temporary_type != std::filesystem::file_type::regular)
+    throw UserError(temporary + ": exists and is not a regular file; allowed: a regular file or none (frugal's "
+                                "temporary name)");
   const Shape& shape = image.shape();
   int dims[8] = {shape.z > 1 ? 3 : 2, shape.x, shape.y, shape.z, 1, 1, 1, 1};
   NiftiPointer nim(nifti_make_new_nim(dims, datatype, 0));
@@ -69,11 +78,28 @@ void write_any(const Image<Voxel>& image, const std::string& path, int datatype)
   nim->data = const_cast<Voxel*>(image.data());  // borrowed for the write only
   nifti_image_write(nim.get());
   nim->data = nullptr;
+  // nifti_image_write returns nothing: a full disk leaves a short file, so count what was written.
+  const std::uintmax_t expected = static_cast<std::uintmax_t>(nim->iname_offset) +
+                                  static_cast<std::uintmax_t>(nim->nvox) * static_cast<std::uintmax_t>(nim->nbyper);
   std::error_code error;
-  if (!std::filesystem::exists(temporary, error) || std::filesystem::file_size(temporary, error) == 0)
-    throw UserError(path + ": writing the NIfTI file failed (is the folder writable and the disk not full?)");
+  std::uintmax_t written = 0;
+  try {
+    if (std::filesystem::exists(temporary, error))
+      written =
+          ends_with(temporary, ".gz") ? decompressed_size(temporary) : std::filesystem::file_size(temporary, error);
+  } catch (const UserError&) {
+    written = 0;  // a cut gzip stream
+  }
+  if (written != expected) {
+    std::filesystem::remove(temporary, error);
+    throw UserError(path + ": writing the NIfTI file failed (the folder is not writable, the disk is full or the file "
+                           "too large); nothing was replaced");
+  }
   std::filesystem::rename(temporary, path, error);
-  if (error) throw UserError(path + ": cannot move the finished file into place: " + error.message());
+  if (error) {
+    std::filesystem::remove(temporary, error);
+    throw UserError(path + ": cannot move the finished file into place: " + error.message());
+  }
 }
 
 // Bytes a gzip file decompresses to; a damaged or cut stream is a UserError.

@@ -12,6 +12,7 @@
 #include <yaml-cpp/yaml.h>
 
 #include "frugal_version.h"
+#include "phantoms/folder_manifest.h"
 #include "phantoms/nifti_io.h"
 #include "phantoms/ordered_pipeline.h"
 #include "phantoms/phantom.h"
@@ -106,9 +107,7 @@ PhantomSetSummary write_phantom_set(const ScenarioOptions& scenario, const std::
   if (std::string error = scenario.validate(); !error.empty()) throw UserError(scenario_file + ": " + error);
   const auto start = std::chrono::steady_clock::now();
   const fs::path root(options.out_dir);
-  if (fs::exists(root / "manifest.json") && !options.overwrite)
-    throw UserError(options.out_dir + ": already holds a finished phantom set (manifest.json); choose another folder "
-                    "or pass --overwrite");
+  require_output_folder(options.out_dir, "phantom_set", options.overwrite);
   if (options.overwrite) remove_phantom_set(root);
   std::error_code made;
   fs::create_directories(root / "images", made);

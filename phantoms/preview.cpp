@@ -6,10 +6,12 @@
 #include <algorithm>
 #include <cmath>
 #include <filesystem>
+#include <string>
 #include <vector>
 
 #include "phantoms/image_views.h"
 #include "phantoms/user_error.h"
+#include "phantoms/whole_file.h"
 
 namespace frugal {
 
@@ -82,11 +84,13 @@ void Montage::write_png(const std::string& path) const {
     const cv::Mat& tile = tiles_->images[static_cast<std::size_t>(n)];
     tile.copyTo(sheet(cv::Rect(gap + (n % columns) * (tile_w + gap), gap + (n / columns) * (tile_h + gap), tile.cols, tile.rows)));
   }
-  const std::string temporary = path + ".partial.png";
-  if (!cv::imwrite(temporary, sheet)) throw UserError(path + ": cannot write the preview PNG");
-  std::error_code error;
-  std::filesystem::rename(temporary, path, error);
-  if (error) throw UserError(path + ": cannot move the preview into place: " + error.message());
+  // Encoded in memory and written through WholeFile, which notices a short write (a full disk)
+  // and removes its temporary file; cv::imwrite would not say.
+  std::vector<unsigned char> bytes;
+  if (!cv::imencode(".png", sheet, bytes)) throw UserError(path + ": cannot encode the preview PNG");
+  WholeFile file(path);
+  file.write(std::string(bytes.begin(), bytes.end()));
+  file.commit();
 }
 
 }  // namespace frugal

@@ -1,14 +1,14 @@
 #include "phantoms/whole_file.h"
 
+#include "phantoms/regular_file.h"
 #include "phantoms/user_error.h"
 
 namespace frugal {
 
 WholeFile::WholeFile(std::filesystem::path path) : path_(std::move(path)), temporary_(path_.string() + ".partial") {
-  std::error_code error;
-  if (std::filesystem::is_directory(path_, error)) throw UserError(path_.string() + ": is a folder; give a file name");
+  require_writable_output(path_.string(), OutputKind::file, "a new or regular file");  // and the temporary name
   stream_.open(temporary_, std::ios::binary | std::ios::trunc);
-  if (!stream_) throw UserError(temporary_.string() + ": cannot open for writing");
+  if (!stream_) throw UserError(temporary_.string() + ": cannot open for writing (is the folder there and writable?)");
 }
 
 WholeFile::~WholeFile() {
@@ -20,7 +20,8 @@ WholeFile::~WholeFile() {
 
 void WholeFile::commit() {
   stream_.close();
-  if (!stream_) throw UserError(temporary_.string() + ": writing failed (disk full?)");
+  if (!stream_)
+    throw UserError(path_.string() + ": writing failed (the disk is full or the file too large); nothing was replaced");
   std::error_code error;
   std::filesystem::rename(temporary_, path_, error);
   if (error) throw UserError(path_.string() + ": cannot move the finished file into place: " + error.message());

@@ -365,7 +365,10 @@ YAML::Node load_yaml_file(const std::string& file) {
   std::ostringstream buffer;
   buffer << stream.rdbuf();
   if (stream.bad()) throw UserError(file + ": reading the file failed; allowed: a readable YAML file");
-  const std::string text = buffer.str();
+  return parse_yaml_text(buffer.str(), file);
+}
+
+YAML::Node parse_yaml_text(const std::string& text, const std::string& file) {
   try {
     // The structure is checked on the event stream first, so no node tree is ever built from a
     // file that breaks it.

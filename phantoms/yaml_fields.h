@@ -76,6 +76,8 @@ class YamlFields {
 // in one mapping or are not plain text, and nesting deeper than kMaxYamlDepth. Syntax errors
 // name the file and line.
 YAML::Node load_yaml_file(const std::string& file);
+// The same checks on text already in memory (the file's contents); `file` names it in messages.
+YAML::Node parse_yaml_text(const std::string& text, const std::string& file);
 
 // 1-based line of a dotted key path ("streaks.count.mean") in `node`, so that validate()
 // messages, which start with the key path, can name a line. When the last keys are absent (the

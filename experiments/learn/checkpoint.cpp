@@ -7,6 +7,7 @@
 #include <cmath>
 #include <filesystem>
 #include <limits>
+#include <sstream>
 #include <nlohmann/json.hpp>
 #include <string>
 #include <unordered_map>
@@ -15,6 +16,7 @@
 #include "experiments/learn/learner.h"
 #include "experiments/learn/model_internal.h"
 #include "phantoms/user_error.h"
+#include "phantoms/whole_file.h"
 
 namespace frugal::learn {
 namespace {
@@ -145,20 +147,21 @@ Strategy TrainedModel::strategy() const { return impl().strategy; }
 void TrainedModel::save(const std::string& path) const {
   const Impl& model = impl();
   const std::string meta = describe(model).dump();
-  const std::string partial = path + ".partial";
+  // Serialised in memory (a checkpoint is megabytes), then written through WholeFile, which checks
+  // every byte reached the disk and removes its temporary file otherwise.
+  std::ostringstream bytes(std::ios::binary);
   try {
     if (model.network) {
-      model.network->save(partial, meta);
+      model.network->save(bytes, meta);
     } else {
-      internal::save_archive(partial, meta, nullptr);
+      internal::save_archive(bytes, meta, nullptr);
     }
   } catch (const c10::Error& error) {
-    std::filesystem::remove(partial);
-    throw UserError(path + ": cannot write the checkpoint: " + error.what_without_backtrace());
+    throw UserError(path + ": cannot serialise the checkpoint: " + error.what_without_backtrace());
   }
-  std::error_code code;
-  std::filesystem::rename(partial, path, code);
-  if (code) throw UserError(path + ": cannot move the finished checkpoint into place: " + code.message());
+  WholeFile file(path);
+  file.write(bytes.str());
+  file.commit();
 }
 
 TrainedModel TrainedModel::load(const std::string& path) {

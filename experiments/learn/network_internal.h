@@ -6,6 +6,7 @@
 #include <torch/torch.h>
 
 #include <memory>
+#include <ostream>
 #include <string>
 #include <utility>
 #include <vector>
@@ -35,8 +36,9 @@ class Network {
   // Starts the map at a chosen logit (count-map, grade-bounds); false when the network has no
   // map bias frugal knows of (TorchScript modules), which then start where their author put them.
   virtual bool set_map_bias(double value) = 0;
-  // Writes the network and frugal's metadata (JSON text) to `path`; the caller makes it atomic.
-  virtual void save(const std::string& path, const std::string& meta_json) = 0;
+  // Writes the network and frugal's metadata (JSON text) to `out`, a memory stream: the caller
+  // writes the file itself, since torch's file writer throws from its destructor on a full disk.
+  virtual void save(std::ostream& out, const std::string& meta_json) = 0;
 };
 
 // frugal's U-shaped network (unet_internal.h) in the model's memory format.
@@ -50,7 +52,7 @@ std::unique_ptr<Network> load_scripted_network(const std::string& path, const Sh
 
 // frugal's own checkpoint archive: the module's tensors (none for the classical strategies, which
 // pass null) and the metadata JSON as the uint8 tensor "frugal.meta".
-void save_archive(const std::string& path, const std::string& meta_json, torch::nn::Module* module);
+void save_archive(std::ostream& out, const std::string& meta_json, torch::nn::Module* module);
 
 // The same U-shaped network with the weights of a checkpoint written by its save().
 std::unique_ptr<Network> load_unet_network(torch::serialize::InputArchive& archive, int dims, int width, int depth,

@@ -108,8 +108,8 @@ class ScriptedNetwork : public Network {
   bool set_map_bias(double /*value*/) override { return false; }
 
   // Write errors stay c10::Error: the caller removes its partial file and names the final path.
-  void save(const std::string& path, const std::string& meta_json) override {
-    module_.save(path, torch::jit::ExtraFilesMap{{kScriptedMetaFile, meta_json}});
+  void save(std::ostream& out, const std::string& meta_json) override {
+    module_.save(out, torch::jit::ExtraFilesMap{{kScriptedMetaFile, meta_json}});
   }
 
   // The module's output for `input`, checked: one floating tensor of the input's shape, as float32.

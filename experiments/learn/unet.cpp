@@ -140,8 +140,8 @@ class UNetNetwork : public Network {
     net_->map_bias().fill_(value);
     return true;
   }
-  void save(const std::string& path, const std::string& meta_json) override {
-    save_archive(path, meta_json, net_.get());
+  void save(std::ostream& out, const std::string& meta_json) override {
+    save_archive(out, meta_json, net_.get());
   }
   void load(torch::serialize::InputArchive& archive) {
     net_->load(archive);
@@ -156,12 +156,12 @@ class UNetNetwork : public Network {
 
 }  // namespace
 
-void save_archive(const std::string& path, const std::string& meta_json, torch::nn::Module* module) {
+void save_archive(std::ostream& out, const std::string& meta_json, torch::nn::Module* module) {
   torch::serialize::OutputArchive archive;
   if (module != nullptr) module->save(archive);
   const auto bytes = static_cast<std::int64_t>(meta_json.size());
   archive.write("frugal.meta", torch::from_blob(const_cast<char*>(meta_json.data()), {bytes}, torch::kUInt8).clone());
-  archive.save_to(path);
+  archive.save_to(out);
 }
 
 std::unique_ptr<Network> make_unet_network(int dims, int width, int depth, Normalization normalization,

@@ -122,9 +122,19 @@ PredictionsTable read_predictions_table(const std::string& path) {
     row.presence_probability = read(presence);
     row.grade = read(grade);
     row.burden_mm3 = read(burden);
-    if (!std::isnan(row.presence_probability) && (row.presence_probability < 0.0 || row.presence_probability > 1.0))
-      throw UserError(table.where(r, presence) + ": " + table.text(r, presence) +
-                      " is not a probability; allowed: a number from 0 to 1, or NA");
+    // Bounds of what the quantity can be: a negative count or burden, or a fraction above 1, is a
+    // bug in the method that wrote the table, and 1e308 would turn MAE and RMSE into overflow.
+    const auto require_range = [&](double value, int column, double low, double high, const char* what,
+                                   const char* allowed) {
+      if (std::isnan(value) || (value >= low && value <= high)) return;
+      throw UserError(table.where(r, column) + ": " + table.text(r, column) + " is not " + what + "; allowed: " +
+                      allowed + ", or NA");
+    };
+    require_range(row.presence_probability, presence, 0.0, 1.0, "a probability", "a number from 0 to 1");
+    require_range(row.count, count, 0.0, 1e9, "a lesion count", "a number from 0 to 1e9");
+    require_range(row.affected_fraction, fraction, 0.0, 1.0, "a fraction", "a number from 0 to 1");
+    require_range(row.grade, grade, 0.0, 1000.0, "a grade (a bin index)", "a number from 0 to 1000");
+    require_range(row.burden_mm3, burden, 0.0, 1e12, "a burden in mm3", "a number from 0 to 1e12");
     if (map >= 0 && !table.missing(r, map)) {
       row.map = table.text(r, map);
       row.map_kind = MapKind::probability;

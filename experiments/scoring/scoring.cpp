@@ -65,16 +65,18 @@ MapScore score_maps(const PredictionsTable& predictions, const std::vector<const
   for (std::size_t r = 0; r < predictions.rows.size(); ++r) {
     const PredictionRow& row = predictions.rows[r];
     if (row.map.empty()) continue;
-    if (row.map_kind != MapKind::probability) {
-      accumulator.add_unthresholded_map();
-      continue;
-    }
+    // Every map named is read, density and response maps too, though they are not thresholded: a
+    // missing, damaged or non-finite map is an error (docs/score.md), never a silent gap.
     const std::string path = predictions.map_path(row);
     FloatImage map;
     try {
       map = read_nifti_image(path);
     } catch (const UserError& error) {
       throw UserError(predictions.where(row) + ": map file: " + error.what());
+    }
+    if (row.map_kind != MapKind::probability) {
+      accumulator.add_unthresholded_map();
+      continue;
     }
     const LabelImage truth = read_nifti_labels(truth_rows[r]->labels_path);
     if (map.shape() != truth.shape())

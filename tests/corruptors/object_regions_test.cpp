@@ -44,7 +44,7 @@ TEST(ObjectRegions, EveryObjectGetsExactlyItsLabelledVoxels) {
 }
 
 // Without records (voids), the regions are the 8-connected components of the lesion label, as
-// OpenCV's connectedComponents counts them (VALIDATION.md section 10: it counts the background too).
+// OpenCV's cv::connectedComponents counts them (its count includes the background label 0).
 TEST(ObjectRegions, VoidsRegionsAreTheLesionComponents) {
   for (int n = 0; n < 4; ++n) {
     const Subject subject = generate_subject(scenario(Family::voids, 2), 5, n);

@@ -13,8 +13,8 @@ struct RicianCase {
   double amplitude, sigma, mean, variance;
 };
 
-// Rice moments from scipy.stats.rice(b=A/sigma, scale=sigma) (VALIDATION.md §4, computed with
-// scipy; closed forms of Gudbjartsson & Patz 1995, Magn Reson Med 34:910).
+// Rice moments from scipy.stats.rice(b=A/sigma, scale=sigma).mean() and .var() (scipy; the closed
+// forms of Gudbjartsson & Patz 1995, Magn Reson Med 34:910-914).
 class RicianMoments : public ::testing::TestWithParam<RicianCase> {};
 
 TEST_P(RicianMoments, MatchAnalyticMeanAndVariance) {
@@ -32,7 +32,7 @@ TEST_P(RicianMoments, MatchAnalyticMeanAndVariance) {
   // Tolerances: 5 standard errors of the mean (sqrt(var/n)) and of the variance (~var*sqrt(2/n)).
   EXPECT_NEAR(mean, c.mean, 5.0 * std::sqrt(c.variance / n)) << "seed 21";
   EXPECT_NEAR(variance, c.variance, 5.0 * c.variance * std::sqrt(2.0 / n)) << "seed 21";
-  // Exact second moment E[M^2] = A^2 + 2 sigma^2 (VALIDATION.md §4).
+  // Exact second moment E[M^2] = A^2 + 2 sigma^2 (Gudbjartsson & Patz 1995, Magn Reson Med 34:910).
   EXPECT_NEAR(sum2 / n, c.amplitude * c.amplitude + 2.0 * c.sigma * c.sigma,
               0.01 * (c.amplitude * c.amplitude + 2.0 * c.sigma * c.sigma));
 }

@@ -36,7 +36,7 @@ TEST(Phantom, SameSeedSameSubjectInAnyOrder) {
 }
 
 // With lesions kept apart, the truth count equals the 8-connected components of the lesion mask
-// (OpenCV connectedComponents; VALIDATION.md §10 for its conventions: background counts as one).
+// (OpenCV cv::connectedComponents, whose count includes the background label 0).
 TEST(Phantom, StreaksTruthCountEqualsConnectedComponents) {
   ScenarioOptions s = small(Family::streaks, 2);
   s.streaks.count = {CountDistribution::Kind::poisson, 8.0};

@@ -4,14 +4,20 @@ scratch folder, runs frugal, and checks the exit code (2), that nothing hangs (a
 case), and the key words of the one-line message: the file or option named, and what is allowed.
 
 Expected wording: common practice, no source (frugal's "FILE:LINE: key path ...; allowed: ..."
-messages). NIfTI header rules: the NIfTI-1 standard header nifti1.h.
+messages). NIfTI header rules: the NIfTI-1 standard header nifti1.h. A full disk is simulated
+without privileges by a file-size limit (setrlimit(2) RLIMIT_FSIZE with SIGXFSZ ignored, so that
+writes fail with EFBIG).
 
 Run by CTest as: /usr/bin/python3 bad_input_catalogue_test.py --frugal PATH --source REPO_DIR
 """
 
 import gzip
+import json
 import os
+import resource
 import shutil
+import signal
+import stat
 import struct
 import subprocess
 import unittest
@@ -83,11 +89,78 @@ def gzipped(data):
 # --- The catalogue --------------------------------------------------------------------------
 
 class Case:
-    def __init__(self, name, args, words, files=None):
+    def __init__(self, name, args, words, files=None, file_size_limit=None, stdout_file=None):
         self.name = name
         self.args = args      # "{case}" is the case's folder, "{fix}" the shared fixtures, "{src}" the repository
         self.words = words    # fragments the message must contain
         self.files = files or {}
+        self.file_size_limit = file_size_limit  # bytes per file (RLIMIT_FSIZE): a full disk without root
+        self.stdout_file = stdout_file          # standard output goes to this file in the case's folder
+
+
+def full_disk(limit_bytes):
+    """A preexec_fn that makes writes beyond `limit_bytes` fail with EFBIG, as on a full disk:
+    setrlimit(RLIMIT_FSIZE) with SIGXFSZ ignored (POSIX setrlimit(2); Python's resource module)."""
+    def limit():
+        signal.signal(signal.SIGXFSZ, signal.SIG_IGN)
+        resource.setrlimit(resource.RLIMIT_FSIZE, (limit_bytes, limit_bytes))
+    return limit
+
+
+def copy_of(name, change=None):
+    """A copy of the fixture `name`, then `change(target)`."""
+    def write(target):
+        shutil.copytree(fixture(name), target)
+        if change:
+            change(target)
+    return write
+
+
+def remove_manifest(target):
+    os.remove(os.path.join(target, "manifest.json"))
+
+
+def truncate_manifest(target):
+    path = os.path.join(target, "manifest.json")
+    with open(path) as f:
+        text = f.read()
+    with open(path, "w") as f:
+        f.write(text[:len(text) // 2])
+
+
+def manifest_schema_version(version):
+    def change(target):
+        path = os.path.join(target, "manifest.json")
+        with open(path) as f:
+            manifest = json.load(f)
+        manifest["schema_version"] = version
+        with open(path, "w") as f:
+            json.dump(manifest, f)
+    return change
+
+
+def prediction_cell(column, value, row=0):
+    """Sets `column` of data row `row` of predictions.csv to `value`."""
+    def change(target):
+        path = os.path.join(target, "predictions.csv")
+        with open(path) as f:
+            lines = f.read().splitlines()
+        header = 1 if lines[0].startswith("#") else 0
+        names = lines[header].split(",")
+        cells = lines[header + 1 + row].split(",")
+        cells[names.index(column)] = value
+        lines[header + 1 + row] = ",".join(cells)
+        with open(path, "w") as f:
+            f.write("\n".join(lines) + "\n")
+    return change
+
+
+def predictions_with(*changes):
+    def write(target):
+        shutil.copytree(fixture("predicted"), target)
+        for change in changes:
+            change(target)
+    return write
 
 
 SCENARIO = "{fix}/tiny.yaml"
@@ -97,6 +170,20 @@ PHANTOMS = ["phantoms", "{case}/s.yaml", "--count", "2", "--out", "{case}/out", 
 
 def scenario_case(name, text, words):
     return Case(name, PHANTOMS, ["s.yaml"] + words + ["allowed:"], {"s.yaml": text})
+
+
+PHANTOMS_FIX = ["phantoms", SCENARIO, "--count", "2", "--out", "{case}/out", "--preview-tiles", "0"]
+LABELS = ["labels", SCENARIO, "--rater", RATER, "--count", "2", "--out", "{case}/out"]
+CALIBRATE = ["calibrate", SCENARIO, "--rater", RATER, "--target", "0.5", "--subjects", "30", "--out"]
+TRAIN = ["train", "--phantoms", "{fix}/set", "--labels", "{fix}/labels", "--strategy", "threshold", "--out"]
+PREDICT = ["predict", "{fix}/threshold.pt", "--images", "{fix}/set", "--out"]
+SCORE = ["score", "{fix}/predicted/predictions.csv", "--phantoms", "{fix}/set"]
+SCORE_CHANGED = ["score", "{case}/predicted/predictions.csv", "--phantoms", "{fix}/set"]
+
+
+def copy_nan_map_into(target):
+    map_path = os.path.join(target, "maps", "subject_000001.nii.gz")
+    nib.save(nan_image_like(map_path), map_path)
 
 
 DEEP_LIST = "[" * 100000 + "\n"
@@ -265,6 +352,116 @@ CASES = [
     Case("score_unknown_option", ["score", "{fix}/predicted/predictions.csv", "--phantoms", "{fix}/set", "--jsn",
                                   "{case}/s.json"],
          ["'--jsn", "allowed:", "frugal score --help"]),
+    # Output paths (common practice, no source): nothing but a regular file or a folder of frugal's
+    # own is replaced, and the refusal comes before anything is written.
+    Case("phantoms_out_dev_full", ["phantoms", SCENARIO, "--count", "2", "--out", "/dev/full", "--preview-tiles", "0"],
+         ["/dev/full", "a character device", "allowed: a new folder or a folder of frugal's own"]),
+    Case("phantoms_out_is_a_pipe", PHANTOMS_FIX, ["out", "a named pipe", "allowed: a new folder"], {"out": FIFO}),
+    Case("labels_out_is_a_pipe", LABELS, ["out", "a named pipe", "allowed: a new folder"], {"out": FIFO}),
+    Case("labels_out_is_a_file", LABELS, ["out", "is a file, not a folder", "allowed: a new folder"],
+         {"out": "a file\n"}),
+    Case("calibrate_out_dev_full", CALIBRATE + ["/dev/full"],
+         ["/dev/full", "a character device", "allowed: a new or regular file"]),
+    Case("calibrate_out_is_a_pipe", CALIBRATE + ["{case}/r.yaml"], ["r.yaml", "a named pipe", "allowed:"],
+         {"r.yaml": FIFO}),
+    Case("calibrate_temporary_is_a_pipe", CALIBRATE + ["{case}/r.yaml"],
+         ["r.yaml.partial", "a named pipe", "allowed: a regular file or none"], {"r.yaml.partial": FIFO}),
+    Case("train_out_dev_full", TRAIN + ["/dev/full"],
+         ["/dev/full", "a character device", "allowed: a new or regular file for the checkpoint"]),
+    Case("train_out_is_a_pipe", TRAIN + ["{case}/m.pt"], ["m.pt", "a named pipe", "allowed:"], {"m.pt": FIFO}),
+    Case("train_sidecar_is_a_pipe", TRAIN + ["{case}/m.pt"], ["m.pt.json", "a named pipe", "allowed:"],
+         {"m.pt.json": FIFO}),
+    Case("train_out_is_a_folder", TRAIN + ["{case}/m.pt"], ["m.pt", "is a folder", "allowed:"], {"m.pt": FOLDER}),
+    Case("predict_out_is_a_pipe", PREDICT + ["{case}/out"], ["out", "a named pipe", "allowed: a new folder"],
+         {"out": FIFO}),
+    Case("predict_out_dev_full", PREDICT + ["/dev/full"], ["/dev/full", "a character device", "allowed:"]),
+    Case("score_json_is_a_pipe", SCORE + ["--json", "{case}/s.json"],
+         ["s.json", "a named pipe", "allowed: a new or regular file for the JSON report"], {"s.json": FIFO}),
+    Case("score_json_dev_full", SCORE + ["--json", "/dev/full"], ["/dev/full", "a character device", "allowed:"]),
+    # A folder of another kind is not replaced, even with --overwrite; the message names its kind.
+    Case("phantoms_out_holds_labels", ["phantoms", SCENARIO, "--count", "2", "--out", "{case}/out", "--overwrite"],
+         ["already holds a finished label set", "not a finished phantom set", "allowed: a new folder"],
+         {"out": copy_of("labels")}),
+    Case("labels_out_holds_phantoms", LABELS + ["--overwrite"],
+         ["already holds a finished phantom set", "not a finished label set", "allowed:"], {"out": copy_of("set")}),
+    Case("predict_out_holds_phantoms", PREDICT + ["{case}/out", "--overwrite"],
+         ["already holds a finished phantom set", "not finished predictions", "allowed:"], {"out": copy_of("set")}),
+    Case("labels_out_finished", LABELS, ["already holds a finished label set", "--overwrite"],
+         {"out": copy_of("labels")}),
+    Case("predict_out_finished", PREDICT + ["{case}/out"], ["already holds finished predictions", "--overwrite"],
+         {"out": copy_of("predicted")}),
+    # Names longer than the file system takes (NAME_MAX 255 on Linux, less room for ".partial").
+    Case("phantoms_out_name_too_long", ["phantoms", SCENARIO, "--count", "2", "--out", "{case}/" + "n" * 300],
+         ["300 characters long", "name too long", "allowed: names of at most 239 characters"]),
+    Case("train_out_name_too_long", TRAIN + ["{case}/" + "m" * 250], ["250 characters long", "name too long"]),
+    Case("score_json_name_too_long", SCORE + ["--json", "{case}/" + "j" * 256], ["256 characters long", "allowed:"]),
+    # A full disk (a file-size limit): exit 2, a clear message, no temporary file left.
+    Case("phantoms_full_disk", PHANTOMS_FIX, ["subject_000000.nii.gz", "writing the NIfTI file failed", "disk is full"],
+         file_size_limit=3000),
+    Case("labels_full_disk", ["labels", SCENARIO, "--rater", RATER, "--count", "40", "--out", "{case}/out"],
+         ["labels.csv", "writing failed", "disk is full", "nothing was replaced"], file_size_limit=1500),
+    Case("train_full_disk_classical", TRAIN + ["{case}/m.pt"], ["m.pt", "writing failed", "disk is full"],
+         file_size_limit=100),
+    Case("train_full_disk_network", ["train", "--phantoms", "{fix}/set", "--labels", "{fix}/labels", "--strategy",
+                                     "count-map", "--epochs", "1", "--width", "4", "--depth", "2", "--threads", "1",
+                                     "--out", "{case}/m.pt"],
+         ["m.pt", "writing failed", "disk is full"], file_size_limit=20000),
+    Case("predict_full_disk", PREDICT + ["{case}/out"], ["writing failed", "disk is full"], file_size_limit=300),
+    Case("score_json_full_disk", SCORE + ["--json", "{case}/s.json"], ["s.json", "writing failed", "disk is full"],
+         file_size_limit=500),
+    Case("score_stdout_full_disk", SCORE, ["standard output", "writing failed"], file_size_limit=200,
+         stdout_file="report.txt"),
+    # Scoring: absurd and non-finite values with row and column; every map must be there.
+    Case("score_count_minus_1e308", SCORE_CHANGED, ["predictions.csv line 3, column count", "-1e308",
+                                                    "allowed: a number from 0 to 1e9"],
+         {"predicted": predictions_with(prediction_cell("count", "-1e308"))}),
+    Case("score_count_infinite", SCORE_CHANGED, ["line 3, column count", '"inf"', "allowed: a finite decimal number"],
+         {"predicted": predictions_with(prediction_cell("count", "inf"))}),
+    Case("score_count_negative", SCORE_CHANGED, ["line 4, column count", "-1 is not a lesion count", "allowed:"],
+         {"predicted": predictions_with(prediction_cell("count", "-1", row=1))}),
+    Case("score_count_absurd", SCORE_CHANGED, ["column count", "1e300", "allowed: a number from 0 to 1e9"],
+         {"predicted": predictions_with(prediction_cell("count", "1e300"))}),
+    Case("score_burden_negative", SCORE_CHANGED, ["column burden_mm3", "-5", "allowed: a number from 0 to 1e12"],
+         {"predicted": predictions_with(prediction_cell("burden_mm3", "-5"))}),
+    Case("score_fraction_above_one", SCORE_CHANGED,
+         ["column affected_fraction", "1.5", "allowed: a number from 0 to 1"],
+         {"predicted": predictions_with(prediction_cell("affected_fraction", "1.5"))}),
+    Case("score_fraction_negative", SCORE_CHANGED,
+         ["column affected_fraction", "-0.1", "allowed: a number from 0 to 1"],
+         {"predicted": predictions_with(prediction_cell("affected_fraction", "-0.1"))}),
+    Case("score_probability_map_missing", SCORE_CHANGED, ["line 3", "map file", "missing.nii.gz", "allowed:"],
+         {"predicted": predictions_with(prediction_cell("map", "maps/missing.nii.gz"))}),
+    Case("score_density_map_missing", SCORE_CHANGED, ["line 3", "map file", "missing.nii.gz", "allowed:"],
+         {"predicted": predictions_with(prediction_cell("map", "maps/missing.nii.gz"),
+                                        prediction_cell("map_kind", "density"))}),
+    Case("score_density_map_nan", SCORE_CHANGED, ["subject_000001.nii.gz", "not finite", "allowed: finite intensities"],
+         {"predicted": predictions_with(copy_nan_map_into, prediction_cell("map_kind", "density", row=1))}),
+    # Unfinished and foreign folders: the manifest is checked, and predictions must be the set's.
+    Case("train_set_without_manifest", ["train", "--phantoms", "{case}/set", "--labels", "{fix}/labels", "--strategy",
+                                        "threshold", "--out", "{case}/m.pt"],
+         ["set: no manifest.json", "unfinished or not a phantom set", "allowed: a phantom set folder"],
+         {"set": copy_of("set", remove_manifest)}),
+    Case("train_set_truncated_manifest", ["train", "--phantoms", "{case}/set", "--labels", "{fix}/labels",
+                                          "--strategy", "threshold", "--out", "{case}/m.pt"],
+         ["manifest.json", "not valid JSON", "allowed: the manifest.json of a phantom set"],
+         {"set": copy_of("set", truncate_manifest)}),
+    Case("predict_set_without_manifest", ["predict", "{fix}/threshold.pt", "--images", "{case}/set", "--out",
+                                          "{case}/out"],
+         ["no manifest.json", "unfinished", "allowed: a phantom set folder"], {"set": copy_of("set", remove_manifest)}),
+    Case("score_set_without_manifest", ["score", "{fix}/predicted/predictions.csv", "--phantoms", "{case}/set"],
+         ["no manifest.json", "unfinished", "allowed: a phantom set folder"], {"set": copy_of("set", remove_manifest)}),
+    Case("score_set_other_schema_version", ["score", "{fix}/predicted/predictions.csv", "--phantoms", "{case}/set"],
+         ["manifest.json", "schema_version is 99", "allowed: 1"], {"set": copy_of("set", manifest_schema_version(99))}),
+    Case("score_labels_as_phantom_set", ["score", "{fix}/predicted/predictions.csv", "--phantoms", "{fix}/labels"],
+         ["holds a finished label set", "not a phantom set folder", "allowed: a phantom set folder"]),
+    Case("score_predictions_of_another_seed", ["score", "{fix}/predicted_seed7/predictions.csv", "--phantoms",
+                                               "{fix}/set"],
+         ["predicted from the phantom set", "set_seed7", "another seed, size or scenario", "allowed:"]),
+    Case("score_predictions_of_another_size", ["score", "{fix}/predicted_3/predictions.csv", "--phantoms", "{fix}/set"],
+         ["predicted from the phantom set", "set_3", "allowed: the phantom set the images came from"]),
+    Case("score_predictions_manifest_of_labels", SCORE_CHANGED,
+         ["manifest.json", "holds a finished label set", "not a predictions folder"],
+         {"predicted": predictions_with(lambda t: shutil.copy(fixture("labels", "manifest.json"), t))}),
 ]
 
 
@@ -294,6 +491,12 @@ def build_fixtures():
     run_frugal(FRUGAL, "train", "--phantoms", fixture("set"), "--labels", fixture("labels"), "--strategy", "threshold",
                "--out", fixture("threshold.pt"))
     run_frugal(FRUGAL, "predict", fixture("threshold.pt"), "--images", fixture("set"), "--out", fixture("predicted"))
+    # Sets that share subject ids with "set" but not its truth: another seed, another size.
+    for name, extra in (("seed7", ["--count", 4, "--seed", 7]), ("3", ["--count", 3])):
+        run_frugal(FRUGAL, "phantoms", fixture("tiny.yaml"), *extra, "--out", fixture("set_" + name),
+                   "--preview-tiles", 0)
+        run_frugal(FRUGAL, "predict", fixture("threshold.pt"), "--images", fixture("set_" + name), "--out",
+                   fixture("predicted_" + name))
 
 
 class BadInputCatalogue(unittest.TestCase):
@@ -306,16 +509,31 @@ class BadInputCatalogue(unittest.TestCase):
         os.makedirs(folder)
         write_files(folder, case.files)
         args = [a.format(case=folder, fix=fixture(), src=SOURCE) for a in case.args]
+        limit = full_disk(case.file_size_limit) if case.file_size_limit else None
+        stdout = open(os.path.join(folder, case.stdout_file), "w") if case.stdout_file else subprocess.PIPE
         try:
-            result = subprocess.run([FRUGAL, *args], capture_output=True, text=True, timeout=SECONDS_PER_CASE)
+            result = subprocess.run([FRUGAL, *args], stdout=stdout, stderr=subprocess.PIPE, text=True,
+                                    timeout=SECONDS_PER_CASE, preexec_fn=limit)
         except subprocess.TimeoutExpired:
             self.fail(f"frugal {' '.join(args)} did not finish within {SECONDS_PER_CASE} s")
+        finally:
+            if case.stdout_file:
+                stdout.close()
         message = result.stderr.strip()
         self.assertEqual(result.returncode, 2, f"frugal {' '.join(args)}:\n{result.stdout}\n{result.stderr}")
         self.assertTrue(message.startswith("frugal: error: "), message)
         self.assertEqual(len(message.splitlines()), 1, f"one line expected:\n{message}")
         for word in case.words:
             self.assertIn(word.format(case=folder, fix=fixture(), src=SOURCE), message)
+        # Nothing half-written is left, and no pipe given was replaced (common practice, no source).
+        for root, _, names in os.walk(folder):
+            for name in names:
+                if os.path.relpath(os.path.join(root, name), folder) not in case.files:
+                    self.assertNotIn(".partial", name, os.path.join(root, name))
+        for name, content in case.files.items():
+            if content is FIFO:
+                self.assertTrue(stat.S_ISFIFO(os.stat(os.path.join(folder, name)).st_mode), name)
+        self.assertTrue(stat.S_ISCHR(os.stat("/dev/full").st_mode), "/dev/full was replaced")
 
 
 class HelpAndVersion(unittest.TestCase):

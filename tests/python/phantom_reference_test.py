@@ -112,7 +112,7 @@ def subjects_of(folder, rescan="0"):
 
 
 def full_connectivity(ndim):
-    # 8-connectivity in 2D, 26 in 3D: the structure VALIDATION.md §10 gives for scipy.ndimage.label.
+    # 8-connectivity in 2D, 26 in 3D: scipy.ndimage.label's structure np.ones((3,) * ndim).
     return np.ones((3,) * ndim, dtype=bool)
 
 
@@ -213,7 +213,7 @@ class StreaksTruthTest(unittest.TestCase):
                 reference = sum(o["in_reference_slice"] == "1" for o in lesions)
                 self.assertEqual(int(row["count_reference_slice"]), reference)
                 # scipy.ndimage.label with np.ones((3,)*ndim) and skimage.measure.label with
-                # connectivity=ndim both use full connectivity and must agree (VALIDATION.md §10).
+                # connectivity=ndim both use full connectivity and must agree (their documentation).
                 n_scipy = ndimage.label(lesion, structure=full_connectivity(len(shape)))[1]
                 n_skimage = skimage.measure.label(lesion, return_num=True, connectivity=len(shape))[1]
                 self.assertEqual(n_scipy, n_skimage)
@@ -230,7 +230,7 @@ class StreaksTruthTest(unittest.TestCase):
             where = f"{dims}D seed {SEED} subject {row['subject']}"
             lesion = labels == 2
             # Lesions are counted as connected components with full connectivity
-            # (scipy.ndimage.label with np.ones((3,)*ndim), VALIDATION.md §10).
+            # (scipy.ndimage.label with np.ones((3,)*ndim)).
             components, n = ndimage.label(lesion, structure=full_connectivity(ndim))
             if n != int(row["count"]):
                 problems.append(f"{where}: {n} components (scipy.ndimage.label) vs truth count {row['count']}")
@@ -339,7 +339,7 @@ class DensitometryTest(unittest.TestCase):
 
 class HounsfieldAnchorTest(unittest.TestCase):
     # HU = 1000 (mu - mu_water) / (mu_water - mu_air): water 0 HU and air -1000 HU by definition
-    # (VALIDATION.md §5; ICRP Publication 129). The scenario has no blur, noise or texture, and
+    # (ICRP Publication 129, 2015). The scenario has no blur, noise or texture, and
     # body_hu 0 (water), parenchyma -850 HU and regions at exactly -950 HU.
     AIR_HU, WATER_HU, PARENCHYMA_HU, REGION_HU = -1000.0, 0.0, -850.0, -950.0
 
@@ -365,8 +365,8 @@ class HounsfieldAnchorTest(unittest.TestCase):
                 self.assertTrue(np.all(image[labels == 1] == self.PARENCHYMA_HU))
                 self.assertTrue(np.all(image[labels == 2] == self.REGION_HU))
                 self.assertGreater(float(row["affected_fraction"]), 0.05)
-                # Densitometry counts voxels strictly below -950 HU (Gevenois et al. 1995;
-                # VALIDATION.md §5 asks for a test with voxels exactly at -950): none here.
+                # Densitometry counts voxels strictly below -950 HU (Gevenois et al. 1995, Am J
+                # Respir Crit Care Med 152: 653-657); voxels exactly at -950 do not count: none here.
                 self.assertEqual(float(np.mean(image[field] < np.float32(-950.0))), 0.0)
                 self.assertEqual(float(row["densitometry"]), 0.0)
 
@@ -424,13 +424,13 @@ class RicianNoiseTest(unittest.TestCase):
 
     def test_air_follows_rayleigh(self):
         # Where the signal is exactly 0 the magnitude of complex Gaussian noise is Rayleigh
-        # (Gudbjartsson & Patz 1995, VALIDATION.md §4): mean sigma*sqrt(pi/2), var (2-pi/2)sigma^2.
+        # (Gudbjartsson & Patz 1995, Magn Reson Med 34: 910): mean sigma*sqrt(pi/2), var (2-pi/2)sigma^2.
         air = (self.labels == 0) & (self.clean == 0.0)
         self.assertGreater(air.sum(), 10000)
         sample = self.noisy[air]
         self.assertTrue(np.all(sample >= 0.0), "magnitude images are non-negative")
         rayleigh = stats.rayleigh(scale=self.SIGMA)
-        # The VALIDATION.md §4 closed forms agree with scipy.stats.rayleigh.
+        # The Rayleigh closed forms (Gudbjartsson & Patz 1995) agree with scipy.stats.rayleigh.
         self.assertAlmostEqual(rayleigh.mean(), 1.2533141373 * self.SIGMA, delta=1e-9)
         self.assertAlmostEqual(rayleigh.var(), 0.4292036732 * self.SIGMA ** 2, delta=1e-9)
         self.check_moments_and_ks(sample, rayleigh, "air vs scipy.stats.rayleigh")
@@ -440,8 +440,8 @@ class RicianNoiseTest(unittest.TestCase):
 
     def test_flat_white_matter_follows_rice(self):
         # With no bias field and no blur, deep white matter has a flat signal A = 1 (the
-        # white-matter intensity); its magnitude is Rician with b = A/sigma (scipy.stats.rice,
-        # VALIDATION.md §4).
+        # white-matter intensity); its magnitude is Rician with b = A/sigma (scipy.stats.rice;
+        # Gudbjartsson & Patz 1995).
         flat = (self.labels == 1) & (np.abs(self.clean - 1.0) < 1e-6)
         self.assertGreater(flat.sum(), 5000)
         signal = float(self.clean[flat].mean())
@@ -449,7 +449,7 @@ class RicianNoiseTest(unittest.TestCase):
         sample = self.noisy[flat]
         rice = stats.rice(b=signal / self.SIGMA, scale=self.SIGMA)
         self.check_moments_and_ks(sample, rice, "white matter vs scipy.stats.rice")
-        # E[M^2] = A^2 + 2 sigma^2 exactly (VALIDATION.md §4); 5 standard errors.
+        # E[M^2] = A^2 + 2 sigma^2 exactly (Gudbjartsson & Patz 1995); 5 standard errors.
         second = sample ** 2
         self.assertLess(abs(second.mean() - (signal ** 2 + 2 * self.SIGMA ** 2)),
                         5 * second.std() / math.sqrt(second.size))
@@ -470,7 +470,7 @@ def folder_files(folder):
 
 
 class DeterminismTest(unittest.TestCase):
-    # Same scenario, seed and thread count give the same files (DESIGN.md §6); the files do not
+    # Same scenario, seed and thread count give the same files (DEVELOPERS.md, Determinism); the files do not
     # depend on the thread count (phantoms/phantom_set.h). Common practice, no source.
     def check_identical(self, first, second, what):
         a, b = folder_files(first), folder_files(second)
@@ -582,7 +582,8 @@ class RescanTest(unittest.TestCase):
 
 
 class BadInputTest(unittest.TestCase):
-    # A user error exits with code 2 and a message naming the file and the key (DESIGN.md §6).
+    # A user error exits with code 2 and a message naming the file and the key (DEVELOPERS.md, Two
+    # tiers of errors).
 
     def expect_user_error(self, args, must_mention, out):
         done = run_frugal("phantoms", *args, "--out", out, "--count", 1)

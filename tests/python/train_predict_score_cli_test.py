@@ -193,7 +193,8 @@ class TrainPredictScoreTest(unittest.TestCase):
         # frugal does not know.
         truth = read_table(path("test", "truth.csv"))
         generator = np.random.default_rng(SEED)
-        counts = np.array([float(t["count"]) for t in truth]) + generator.normal(0, 1.5, len(truth))
+        # Clipped at 0: score refuses a negative count (a lesion count cannot be below 0).
+        counts = np.maximum(0.0, np.array([float(t["count"]) for t in truth]) + generator.normal(0, 1.5, len(truth)))
         table = path("mine.csv")
         with open(table, "w") as f:
             f.write("subject,count,method\n")

@@ -22,7 +22,8 @@ namespace {
 
 std::string temp_path(const std::string& name) { return ::testing::TempDir() + "/" + name; }
 
-// VALIDATION.md §7, pure-formula table (2D, beta = c = 0.5) [C].
+// Frangi et al. 1998 (MICCAI, LNCS 1496: 130-137), 2-D formula with beta = c = 0.5, evaluated
+// with numpy: V = exp(-Rb^2 / 2 beta^2) (1 - exp(-S^2 / 2 c^2)), 0 when l2 > 0.
 TEST(Vesselness, TwoDimensionalFormulaTable) {
   struct Row {
     double l1, l2, expected;
@@ -54,7 +55,7 @@ TEST(Vesselness, ThreeDimensionalCases) {
   EXPECT_EQ(vesselness_3d(0.0, 0.0, 0.0, a, b, c), 0.0);
 }
 
-// VALIDATION.md §7's fixed image: a bright horizontal ridge with a Gaussian cross-profile
+// The reference image given to skimage: a bright horizontal ridge with a Gaussian cross-profile
 // (sd 1.5 px), img[r, c] = exp(-(r - 16)^2 / (2 * 1.5^2)); rows are y, columns x.
 FloatImage ridge_image() {
   FloatImage image(centred_geometry({32, 32, 1}, {1.0, 1.0, 1.0}));
@@ -65,7 +66,7 @@ FloatImage ridge_image() {
 }
 
 // skimage.filters.frangi 0.19.3 on the ridge, sigmas [1, 2, 3], alpha = beta = 0.5,
-// black_ridges=False (VALIDATION.md §7 [C]). frugal copies skimage's discretisation, so the
+// black_ridges=False (skimage 0.19.3, Debian python3-skimage). frugal copies skimage's discretisation, so the
 // maxima agree to float rounding of the response (1e-6 relative). The image holds float32
 // values, skimage float64 ones; the difference (~1e-8) is far below the tolerance.
 TEST(LineFilter, RidgeMatchesScikitImageTable) {
@@ -89,9 +90,9 @@ TEST(LineFilter, RidgeMatchesScikitImageTable) {
 
 // Per scale, at the centre line l1 = 0, so V = 1 - exp(-l2^2 / 2 gamma^2) with gamma = 1 and
 // l2 = skimage's sigma^2 d2/dr2 there: -0.1911934527, -0.3286269346, -0.3277820223 for sigma 1,
-// 2, 3 (VALIDATION.md §7 [C]). A 20% band around the continuous value -sigma^2 w / (w^2 +
+// 2, 3 (skimage.feature.hessian_matrix, 0.19.3). A 20% band around the continuous value -sigma^2 w / (w^2 +
 // sigma^2)^{3/2} (w = 1.5; common calculus, no source) checks that the wide stencil is no gross
-// error at sigma 2 and 3; at sigma 1 the wide stencil reads 25% low (-0.191 vs -0.256, §7).
+// error at sigma 2 and 3; at sigma 1 the wide stencil reads 25% low (-0.191 vs -0.256).
 TEST(LineFilter, RidgePerScaleMatchesAnalyticCentreLine) {
   const FloatImage image = ridge_image();
   const double skimage_l2[] = {-0.1911934527, -0.3286269346, -0.3277820223};

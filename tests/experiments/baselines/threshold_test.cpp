@@ -19,8 +19,9 @@ namespace {
 
 std::string temp_path(const std::string& name) { return ::testing::TempDir() + "/" + name; }
 
-// A lung-like test image in HU with a quarter of its field set exactly to -950 (VALIDATION.md §5:
-// "test it with a synthetic lung mask that puts voxels exactly at -950"), the rest drawn around it.
+// A lung-like test image in HU with a quarter of its field set exactly to -950, so that the strict
+// < of the threshold is tested (software packages differ: common practice, no source), the rest
+// drawn around it.
 struct Lung {
   FloatImage image;
   LabelImage mask;
@@ -36,9 +37,9 @@ Lung random_lung(const Shape& shape, std::uint64_t seed) {
   return lung;
 }
 
-// RA-950 = 100 * #{lung voxels with HU < -950} / #{lung voxels} (VALIDATION.md §5, Gevenois
-// et al. 1995), computed by NumPy (Debian python3-numpy, nibabel) on the same NIfTI files. The
-// counts must be equal, not close.
+// RA-950 = 100 * #{lung voxels with HU < -950} / #{lung voxels} (Gevenois et al. 1995, Am J Respir
+// Crit Care Med 152: 653-657), computed by NumPy (Debian python3-numpy, nibabel) on the same NIfTI
+// files. The counts must be equal, not close.
 TEST(Threshold, EqualsNumpyCountOnNiftiFiles) {
   const Lung lung = random_lung({37, 29, 11}, 5);
   const std::string image_path = temp_path("lung.nii.gz"), mask_path = temp_path("lung_mask.nii.gz"),
@@ -68,8 +69,8 @@ TEST(Threshold, EqualsNumpyCountOnNiftiFiles) {
   EXPECT_EQ(mapped, below);
 }
 
-// Strictly below: a voxel at exactly the threshold does not count (VALIDATION.md §5 asks the spec
-// to fix strict < versus <=; frugal uses <).
+// Strictly below: a voxel at exactly the threshold does not count (frugal's choice of strict <,
+// as in the definition "HU < -950" of Gevenois et al. 1995; packages differ, no source).
 TEST(Threshold, VoxelsAtTheThresholdDoNotCount) {
   FloatImage image(centred_geometry({4, 1, 1}, {1.0, 1.0, 1.0}));
   image.voxels() = {-951.0F, -950.0F, -949.0F, -1000.0F};

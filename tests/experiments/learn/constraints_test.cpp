@@ -42,8 +42,8 @@ static_assert(!std::is_invocable_v<decltype(train)&, const Subject&, const Train
 static_assert(std::is_invocable_v<decltype(train)&, const TrainingSet&, const TrainOptions&, EpochCallback>);
 
 TEST(SizeConstraintPenalty, MatchesTheWorkedCheck) {
-  // Kervadec et al. 2019 penalty; check values from VALIDATION.md §9: bounds [60, 100],
-  // V = 40 or 120 -> 400, V = 80 -> 0.
+  // Kervadec et al. 2019 (Med Image Anal 54: 88-99) penalty (V - a)^2 below a, (V - b)^2 above
+  // b, worked by hand: bounds [60, 100], V = 40 or 120 -> 400, V = 80 -> 0.
   EXPECT_DOUBLE_EQ(size_constraint_penalty(40.0, 60.0, 100.0), 400.0);
   EXPECT_DOUBLE_EQ(size_constraint_penalty(120.0, 60.0, 100.0), 400.0);
   EXPECT_DOUBLE_EQ(size_constraint_penalty(80.0, 60.0, 100.0), 0.0);

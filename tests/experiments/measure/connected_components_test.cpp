@@ -13,7 +13,8 @@ Image<std::uint8_t> blank(int x, int y, int z = 1) {
   return Image<std::uint8_t>(geometry, 0);
 }
 
-// VALIDATION.md section 10: 6x7 image (rows listed top to bottom).
+// A 6x7 image (rows listed top to bottom) whose counts scipy.ndimage.label and
+// cv2.connectedComponents give below.
 Image<std::uint8_t> validation_image() {
   const int rows[6][7] = {{1, 1, 0, 0, 0, 0, 0}, {1, 1, 0, 0, 1, 0, 0}, {0, 0, 1, 0, 0, 1, 0},
                           {0, 0, 0, 0, 0, 0, 0}, {0, 1, 0, 1, 0, 1, 1}, {1, 0, 0, 0, 0, 1, 1}};
@@ -36,7 +37,7 @@ TEST(ConnectedComponents, TwoDimensionalCounts) {
 }
 
 TEST(ConnectedComponents, ThreeDimensionalCounts) {
-  // VALIDATION.md section 10: 5x5x5 with an edge-adjacent, a corner-adjacent and a
+  // 5x5x5 with an edge-adjacent, a corner-adjacent and a
   // face-adjacent pair; scipy.ndimage.label with generate_binary_structure(3, c) gives 5 / 4 / 3
   // components for 6 / 18 / 26 connectivity [C]. numpy index (a, b, c) maps to x=c, y=b, z=a.
   Image<std::uint8_t> volume = blank(5, 5, 5);

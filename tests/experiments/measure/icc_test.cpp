@@ -19,7 +19,8 @@ Eigen::MatrixXd shrout_fleiss_ratings() {
 
 TEST(Icc, AnovaMeanSquares) {
   const IccAnova anova = icc_anova(shrout_fleiss_ratings());
-  // Computed with numpy (VALIDATION.md section 1 snippet).
+  // Computed with numpy: the two-way ANOVA mean squares of Shrout & Fleiss 1979 (Psychol Bull
+  // 86: 420-428) on their 6 x 4 example.
   EXPECT_NEAR(anova.between_subjects, 11.241667, 1e-6);
   EXPECT_NEAR(anova.within_subjects, 6.263889, 1e-6);
   EXPECT_NEAR(anova.between_raters, 32.486111, 1e-6);

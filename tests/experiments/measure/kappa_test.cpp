@@ -48,7 +48,7 @@ TEST(CohenKappa, SkinConditionTable) {
 
 TEST(CohenKappa, UnusedGradeKeepsWeightSpacing) {
   // sklearn cohen_kappa_score with labels=[0,1,2,3] [C]; without the full list sklearn gives
-  // 0.5862 / 0.7273 because grade 2 is never used (VALIDATION.md section 2 pitfall).
+  // 0.5862 / 0.7273 because grade 2 is never used (sklearn builds weights from the labels it finds).
   const std::vector<double> a{0, 0, 1, 1, 3, 3, 3, 0};
   const std::vector<double> b{0, 1, 1, 3, 3, 1, 3, 0};
   EXPECT_NEAR(cohen_kappa(a, b, kGrades).kappa, 0.4418604651162791, 1e-12);

@@ -26,7 +26,8 @@ void fill(Image<std::uint8_t>& mask, int row0, int row1, int col0, int col1, int
 }
 
 TEST(Overlap, DiceJaccardHausdorff2D) {
-  // VALIDATION.md section 6: A = rows 1-4 x cols 1-4, B = rows 2-5 x cols 2-6 on 8x8.
+  // A = rows 1-4 x cols 1-4, B = rows 2-5 x cols 2-6 on 8x8; values from numpy and
+  // scipy.spatial.distance (dice, jaccard, directed_hausdorff) on the same masks.
   Image<std::uint8_t> a = blank(8, 8);
   Image<std::uint8_t> b = blank(8, 8);
   fill(a, 1, 5, 1, 5);

@@ -27,8 +27,8 @@ TEST(Repeatability, FactorIsOnePointNineSixRootTwo) {
 
 TEST(Repeatability, PeakFlowWrightMeter) {
   const RepeatabilityResult result = repeatability(pairs(kWright1, kWright2));
-  // numpy: s_w = sqrt(sum d^2 / 2n), VALIDATION.md section 3 [C]; 2 x SD(d) is the BSI
-  // coefficient of the 1986 paper.
+  // numpy: s_w = sqrt(sum d^2 / 2n) (Bland & Altman 1996, BMJ 313: 744) on the Wright meter pairs
+  // of Bland & Altman 1986 (Lancet i: 307-310); 2 x SD(d) is the BSI coefficient of the 1986 paper.
   EXPECT_NEAR(result.within_subject_sd, 15.306669057866863, 1e-9);
   EXPECT_NEAR(result.repeatability_coefficient, 42.42792199372817, 1e-8);
   EXPECT_NEAR(result.paired_difference_coefficient, 43.44807583907079, 1e-8);

@@ -35,8 +35,12 @@ TEST(ScoreQuantity, MatchesNumpyAndScipyOnAHandMadeCase) {
   // ICC(2,1) by the Shrout & Fleiss (1979) formula (BMS - EMS) / (BMS + (k-1) EMS + k (JMS - EMS) / n),
   // mean squares computed in numpy on the 6 x 2 table [truth, predicted].
   EXPECT_NEAR(score.icc, 0.8821866163996233, 1e-10);
-  EXPECT_LT(score.icc_lower, score.icc);
-  EXPECT_GT(score.icc_upper, score.icc);
+  // Its 95% interval by the Shrout & Fleiss (1979) / McGraw & Wong (1996) formula for ICC(2,1)
+  // (Satterthwaite df v), with scipy.stats.f.ppf(0.975, n-1, v) and f.ppf(0.975, v, n-1); the same
+  // numpy/scipy lines give 0.018786513374712044 / 0.7610843696489528 on the Shrout & Fleiss 6 x 4
+  // example, as icc_test expects. Tolerance 1e-7 as there (F quantiles at non-integer df).
+  EXPECT_NEAR(score.icc_lower, 0.3548192246618782, 1e-7);
+  EXPECT_NEAR(score.icc_upper, 0.9827817549582165, 1e-7);
   // Bland & Altman (1999): bias -/+ 1.96 x the SD of the differences (ddof = 1), numpy.
   EXPECT_NEAR(score.limits_lower, -2.100696580991712, 1e-12);
   EXPECT_NEAR(score.limits_upper, 2.267363247658379, 1e-12);

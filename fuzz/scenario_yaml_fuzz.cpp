@@ -1,0 +1,19 @@
+// Scenario files (phantoms/scenario_yaml.h) through the strict YAML path that files take; a
+// scenario that reads must also read back from its resolved YAML (the round trip the header
+// promises).
+#include "fuzz/fuzz_input.h"
+#include "phantoms/scenario_yaml.h"
+#include "phantoms/user_error.h"
+#include "phantoms/yaml_fields.h"
+
+extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size) {
+  frugal::ScenarioOptions options;
+  try {
+    options = frugal::read_scenario(frugal::parse_yaml_text(frugal::fuzz::as_text(data, size), "fuzz.yaml"), "fuzz.yaml");
+  } catch (const frugal::UserError&) {
+    return 0;
+  }
+  // No catch here: a resolved scenario that does not read back is a bug.
+  frugal::read_scenario(frugal::parse_yaml_text(frugal::scenario_to_yaml(options), "resolved.yaml"), "resolved.yaml");
+  return 0;
+}
