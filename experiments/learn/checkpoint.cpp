@@ -5,6 +5,7 @@
 #include <torch/torch.h>
 
 #include <cmath>
+#include <exception>
 #include <filesystem>
 #include <limits>
 #include <sstream>
@@ -197,6 +198,12 @@ TrainedModel TrainedModel::load(const std::string& path) {
                     error.what_without_backtrace());
   } catch (const json::exception& error) {
     throw UserError(path + ": the checkpoint's frugal.meta record is damaged: " + error.what());
+  } catch (const UserError&) {
+    throw;
+  } catch (const std::exception& error) {
+    // torch's unpickler throws plain standard exceptions (std::out_of_range) on some damaged
+    // archives (found by fuzz/checkpoint_fuzz; corpus/checkpoint_fuzz/damaged-pickle.pt).
+    throw UserError(path + ": cannot read the checkpoint (damaged or not a frugal checkpoint): " + error.what());
   }
   return TrainedModel(std::move(model));
 }

@@ -235,7 +235,8 @@ QuantityScore score_quantity(const std::string& quantity, const std::vector<doub
         }
         measure::IccOptions icc_options;
         icc_options.confidence = confidence;
-        const measure::IccEstimate& icc =
+        // A copy: get() returns a reference into the temporary result.
+        const measure::IccEstimate icc =
             measure::intraclass_correlation(ratings, icc_options).get(measure::IccForm::two_way_random_single);
         score.icc = icc.value;
         score.icc_lower = icc.lower;

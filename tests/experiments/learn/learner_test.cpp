@@ -276,6 +276,13 @@ TEST_F(TinyProblem, BadCheckpointIsAUserError) {
   EXPECT_THROW(TrainedModel::load(path.string()), UserError);
 }
 
+// A damaged checkpoint on which torch's unpickler throws std::out_of_range, found by
+// fuzz/checkpoint_fuzz: a UserError like any other bad checkpoint (common practice, no source).
+TEST(TrainedModelLoad, DamagedPickleIsAUserError) {
+  EXPECT_THROW(TrainedModel::load(std::string(FRUGAL_SOURCE_DIR) + "/fuzz/corpus/checkpoint_fuzz/damaged-pickle.pt"),
+               UserError);
+}
+
 // That truth never reaches training is checked through the command line, which builds the training
 // set from a phantom set folder: tests/python/shuffled_truth_cli_test.py.
 

@@ -68,7 +68,9 @@ TEST(RocAuc, MatchesSklearnWithTies) {
 class ScorePredictions : public ::testing::Test {
  protected:
   void SetUp() override {
-    root_ = fs::path(::testing::TempDir()) / "score_predictions";
+    // One folder per test: ctest runs the tests of this fixture in parallel.
+    root_ = fs::path(::testing::TempDir()) /
+            (std::string("score_predictions_") + ::testing::UnitTest::GetInstance()->current_test_info()->name());
     fs::remove_all(root_);
     fs::create_directories(root_ / "labels");
     fs::create_directories(root_ / "maps");
