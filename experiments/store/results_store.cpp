@@ -2,10 +2,12 @@
 
 #include <sqlite3.h>
 
+#include <chrono>
 #include <cmath>
 #include <filesystem>
 #include <limits>
 #include <map>
+#include <thread>
 #include <utility>
 
 #include "experiments/store/results_store_internal.h"
@@ -325,11 +327,24 @@ void create_schema(const Connection& connection, const StudyRecord& study) {
 
 // Per-connection settings; journal_mode is stored in the file, the others are not.
 void configure_writer(const Connection& connection) {
-  Statement journal(connection, "PRAGMA journal_mode = WAL");
-  journal.step("switching to the WAL journal");
-  if (journal.text(0) != "wal")
+  // Switching the journal needs a moment alone with the file and SQLite does not wait for it:
+  // while another shard is creating the same store, try again for up to the busy timeout.
+  std::string mode;
+  for (int attempt = 0;; ++attempt) {
+    try {
+      Statement journal(connection, "PRAGMA journal_mode = WAL");
+      journal.step("switching to the WAL journal");
+      mode = journal.text(0);
+      if (mode == "wal") break;
+    } catch (const UserError&) {
+      if (attempt * 10 >= kBusyTimeoutMilliseconds) throw;
+    }
+    if (attempt * 10 >= kBusyTimeoutMilliseconds) break;
+    std::this_thread::sleep_for(std::chrono::milliseconds(10));
+  }
+  if (mode != "wal")
     throw UserError(connection.path() + ": cannot use SQLite's WAL journal here (journal mode stays '" +
-                    journal.text(0) + "'); put the store on a local disk");
+                    mode + "'); put the store on a local disk");
   // NORMAL in WAL mode: a commit survives a killed process; only power loss can drop the last ones.
   connection.execute("PRAGMA synchronous = NORMAL", "configuring the store");
 }
@@ -429,7 +444,9 @@ ResultsStore ResultsStore::open_for_study(const std::string& path, const StudyRe
   connection.execute("PRAGMA foreign_keys = ON", "configuring the store");
   // Reading first refuses a file that is not SQLite before anything is written to it.
   if (!has_meta_table(connection)) {
-    if (table_count(connection) > 0) throw UserError(path + ": not a frugal results store (no meta table)");
+    // The second read may see a store another shard created after the first one: look again.
+    if (table_count(connection) > 0 && !has_meta_table(connection))
+      throw UserError(path + ": not a frugal results store (no meta table)");
     configure_writer(connection);
     Transaction transaction(connection, Transaction::Kind::write);
     // Another shard may have created the store since the check above; the write lock settles it.

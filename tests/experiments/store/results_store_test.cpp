@@ -1,6 +1,8 @@
 #include "experiments/store/results_store.h"
 
 #include <gtest/gtest.h>
+
+#include <cstdio>
 #include <signal.h>
 #include <sqlite3.h>
 #include <sys/wait.h>
@@ -426,7 +428,8 @@ TEST(ResultsStore, TwoWritersShareOneFile) {
         ResultsStore store = ResultsStore::open_for_study(path, study());
         for (int i = 0; i < 60; ++i)
           store.write_cell(cell("w" + std::to_string(writer) + "-" + std::to_string(100 + i), i));
-      } catch (const std::exception&) {
+      } catch (const std::exception& error) {
+        std::fprintf(stderr, "writer %d: %s\n", writer, error.what());
         code = 3;
       }
       _exit(code);
