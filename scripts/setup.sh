@@ -13,6 +13,10 @@ packages=(
   clang libclang-rt-14-dev
   # The learning part (CPU libtorch) and TorchScript modules scripted inside its tests.
   libtorch-dev python3-torch
+  # Figures of the report (PLplot through its cairo driver: SVG, PNG, PDF).
+  libplplot-dev plplot-driver-cairo
+  # The report's rendering test opens the HTML page in a real browser.
+  chromium
   # Reference libraries that the tests compare against.
   python3 python3-numpy python3-scipy python3-sklearn python3-skimage python3-nibabel python3-opencv python3-jsonschema
 )

@@ -6,7 +6,7 @@
 #include <map>
 #include <tuple>
 
-#include "experiments/measure/distributions.h"
+#include "experiments/measure/mean_interval.h"
 
 namespace frugal::study {
 namespace {
@@ -21,22 +21,6 @@ double metric_value(const store::CellRecord& cell, const std::string& test_set, 
 }
 
 }  // namespace
-
-void mean_interval(const std::vector<double>& values, double confidence, double& mean, double& lower, double& upper) {
-  const auto n = static_cast<double>(values.size());
-  mean = lower = upper = kNaN;
-  if (values.empty()) return;
-  double sum = 0.0;
-  for (double v : values) sum += v;
-  mean = sum / n;
-  if (values.size() < 2) return;
-  double squares = 0.0;
-  for (double v : values) squares += (v - mean) * (v - mean);
-  // Student (1908): mean +- t_{(1+c)/2, n-1} s / sqrt(n).
-  const double half = measure::student_t_quantile(0.5 + confidence / 2.0, n - 1.0) * std::sqrt(squares / (n - 1.0) / n);
-  lower = mean - half;
-  upper = mean + half;
-}
 
 StudySummary summarise(const std::vector<store::CellRecord>& cells, const std::string& test_set,
                        const std::string& quantity, const std::string& metric, double confidence) {
@@ -82,7 +66,7 @@ StudySummary summarise(const std::vector<store::CellRecord>& cells, const std::s
       row.mean_hours /= row.repeats;
       row.mean_labels /= row.repeats;
     }
-    mean_interval(row.values, confidence, row.mean, row.lower, row.upper);
+    measure::mean_interval(row.values, confidence, row.mean, row.lower, row.upper);
   }
   // Paired differences between arms at the same budget, over the repeats both finished.
   for (std::size_t a = 0; a < summary.rows.size(); ++a)
@@ -99,7 +83,7 @@ StudySummary summarise(const std::vector<store::CellRecord>& cells, const std::s
       difference.first = first.plan + " / " + first.strategy;
       difference.second = second.plan + " / " + second.strategy;
       difference.pairs = static_cast<int>(differences.size());
-      mean_interval(differences, confidence, difference.mean, difference.lower, difference.upper);
+      measure::mean_interval(differences, confidence, difference.mean, difference.lower, difference.upper);
       difference.supported = std::isfinite(difference.lower) && (difference.lower > 0.0 || difference.upper < 0.0);
       summary.differences.push_back(difference);
     }

@@ -50,7 +50,4 @@ struct StudySummary {
 StudySummary summarise(const std::vector<store::CellRecord>& cells, const std::string& test_set,
                        const std::string& quantity, const std::string& metric, double confidence = 0.95);
 
-// Mean and two-sided Student-t interval of `values` (NaN bounds with fewer than 2).
-void mean_interval(const std::vector<double>& values, double confidence, double& mean, double& lower, double& upper);
-
 }  // namespace frugal::study
