@@ -18,6 +18,8 @@ void add_score_command(CLI::App& app);
 void add_run_command(CLI::App& app);
 void add_merge_command(CLI::App& app);
 void add_export_command(CLI::App& app);
+void add_plan_command(CLI::App& app);
+void add_report_command(CLI::App& app);
 void add_demo_command(CLI::App& app);
 
 }  // namespace frugal::cli

@@ -83,9 +83,19 @@ void require_measured(const std::vector<store::CellRecord>& cells, const Target&
                   " on the " + target.test_set + " test set; it holds: " + (list.empty() ? "nothing" : list));
 }
 
+// A budget beyond the pool buys what a smaller one bought and reuses its result: such a cell is
+// the same measurement again, not another point of the curve, so only the smallest budget counts.
+bool repeats_a_smaller_budget(const ArmCells& arm, const store::CellRecord& cell) {
+  for (const store::CellRecord* other : arm.cells)
+    if (other->repeat == cell.repeat && other->budget < cell.budget && other->labels_bought == cell.labels_bought)
+      return true;
+  return false;
+}
+
 std::vector<CurvePoint> points_of(const ArmCells& arm, const Target& target) {
   std::vector<CurvePoint> points;
   for (const store::CellRecord* cell : arm.cells) {
+    if (repeats_a_smaller_budget(arm, *cell)) continue;
     const double value = metric_value(*cell, target);
     if (std::isfinite(value)) points.push_back({cell->repeat, cell->budget, cell->hours_spent, value, target.error_of(value)});
   }
@@ -178,6 +188,7 @@ void answer_labelled(const ArmCells& arm, const std::vector<Target>& targets, co
   }
   int failed = 0;
   std::vector<std::vector<double>> floors(targets.size());  // c per curve and draw
+  out.draw_curves.assign(targets.size(), {});
   for (const std::vector<int>& draw : resamples) {
     double hours = 0.0;
     for (std::size_t k = 0; k < targets.size(); ++k) {
@@ -187,6 +198,7 @@ void answer_labelled(const ArmCells& arm, const std::vector<Target>& targets, co
         break;
       }
       floors[k].push_back(fit.curve.c);
+      out.draw_curves[k].push_back(fit.curve);
       hours = std::max(hours, fit.curve.hours_to_reach(targets[k].error_target()));
     }
     out.draw_hours.push_back(hours);
@@ -241,14 +253,16 @@ bool reachable(const ArmHours& arm) {
 std::string name_of(const ArmHours& arm) { return arm.plan + " / " + arm.strategy; }
 
 std::string hours_text(double hours) {
-  if (std::isinf(hours)) return "never";
+  if (std::isinf(hours)) return "no bound";
   if (hours < 10.0) return format_number(std::round(hours * 10.0) / 10.0) + " h";
   return format_number(std::round(hours)) + " h";
 }
 
 std::string interval_text(double lower, double upper) {
+  if (std::isinf(lower) && std::isinf(upper)) return "no bound either way";
   if (std::isinf(upper)) return "at least " + hours_text(lower) + ", no upper bound";
-  return hours_text(lower).substr(0, hours_text(lower).size() - 2) + "–" + hours_text(upper);
+  if (std::isinf(lower)) return "at most " + hours_text(upper) + ", no lower bound";
+  return hours_text(lower).substr(0, hours_text(lower).size() - 2) + " to " + hours_text(upper);
 }
 
 std::string targets_text(const std::vector<Target>& targets) {

@@ -47,6 +47,7 @@ struct ArmHours {
   int draws = 0;               // bootstrap draws that could be refitted
   int draws_unreachable = 0;   // of those, draws in which a target was never reached
   std::vector<double> draw_hours;  // per bootstrap draw (NaN when it could not be refitted)
+  std::vector<std::vector<PowerLaw>> draw_curves;  // per target: the refitted curve of each draw that converged
   double min_hours = 0.0;      // measured range over the targets' curves
   double max_hours = 0.0;
 };
