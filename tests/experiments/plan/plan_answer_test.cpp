@@ -41,6 +41,7 @@ void add_arm(std::vector<store::CellRecord>& cells, const Arm& arm, int repeats,
       cell.spec_json = R"({"plan":{"name":")" + arm.plan + R"(","kind":")" + arm.kind + R"("}})";
       cell.status = "done";
       cell.hours_spent = budget * (1.0 - 0.01 * repeat);  // labels stop just short of the budget
+      cell.labels_bought = static_cast<int>(budget * 30.0);
       cell.metrics.push_back({"test", arm.quantity, arm.metric, arm.value(cell.hours_spent, repeat), 0.0, 0.0, 100, ""});
       cells.push_back(cell);
     }
@@ -229,6 +230,23 @@ TEST(PlanAnswer, BootstrapIntervalsCoverTheTrueHoursAtAboutTheirNominalRate) {
   std::printf("bootstrap coverage of the true hours at nominal 90%%: %.3f (%d of %d)\n", rate, covered, simulations);
   EXPECT_GE(rate, 0.80);
   EXPECT_LE(rate, 0.99);
+}
+
+}  // namespace
+}  // namespace frugal::plan
+
+namespace frugal::plan {
+namespace {
+
+TEST(PlanAnswer, ABudgetThatBoughtNothingMoreIsNotAnotherPoint) {
+  // A budget beyond the pool buys the same labels as a smaller one (the runner reuses the cell):
+  // with budgets 5, 10 and a saturated 20, 40, 80 only two points remain, too few for a curve.
+  std::vector<store::CellRecord> cells;
+  add_arm(cells, {"counts", "count-map", power_curve(4.0, 0.5, 0.2)}, 3);
+  for (store::CellRecord& cell : cells) cell.labels_bought = std::min(cell.labels_bought, 300);
+  const PlanAnswer answer = answer_plan(cells, {parse_target("count.mae<=0.8", "t")}, quick());
+  EXPECT_EQ(answer.arms[0].reach, Reach::not_fitted);
+  EXPECT_EQ(answer.arms[0].curves[0].budgets.size(), 2U);
 }
 
 }  // namespace
