@@ -60,10 +60,10 @@ std::string format_plan_answer(const plan::PlanAnswer& answer, const std::vector
   }
   bool any_problem = false;
   for (const plan::ArmHours& arm : answer.arms)
-    if (!arm.problem.empty()) {
+    if (!arm.problem.empty() || !arm.note.empty()) {
       if (!any_problem) out += "\n";
       any_problem = true;
-      out += "  " + arm.plan + " / " + arm.strategy + ": " + arm.problem + "\n";
+      out += "  " + arm.plan + " / " + arm.strategy + ": " + (arm.problem.empty() ? arm.note : arm.problem) + "\n";
     }
   out += "\n" + answer.sentence + "\n";
   for (const plan::MixedSplit& split : answer.mixed) {

@@ -159,6 +159,36 @@ void answer_classical(const ArmCells& arm, const std::vector<Target>& targets,
   }
 }
 
+// A curve that cannot be fitted still answers a target that every repeat's mean already meets at
+// the smallest budget: that budget's hours are enough (an upper bound on the hours needed).
+bool met_at_smallest_budget(const std::vector<Target>& targets, const std::vector<std::vector<int>>& resamples,
+                            ArmHours& out) {
+  double hours = 0.0;
+  for (std::size_t k = 0; k < targets.size(); ++k) {
+    const LearningCurve& curve = out.curves[k];
+    if (curve.budgets.empty() || !(curve.budgets.front().error <= targets[k].error_target())) return false;
+    hours = std::max(hours, curve.budgets.front().hours);
+  }
+  out.note = "no curve fitted (" + out.problem + "), but every target is already met at the smallest budget measured";
+  out.problem.clear();
+  out.reach = Reach::below;
+  out.hours = hours;
+  for (const std::vector<int>& draw : resamples) {
+    bool met = true;
+    for (std::size_t k = 0; k < targets.size() && met; ++k) {
+      std::vector<CurvePoint> smallest;
+      for (const CurvePoint& p : out.curves[k].points)
+        if (p.budget == out.curves[k].budgets.front().budget) smallest.push_back(p);
+      const double mean = mean_over(smallest, draw);
+      met = std::isfinite(mean) && targets[k].met_by(mean);
+    }
+    out.draw_hours.push_back(met ? hours : kInfinity);
+    ++out.draws;
+    if (!met) ++out.draws_unreachable;
+  }
+  return true;
+}
+
 void answer_labelled(const ArmCells& arm, const std::vector<Target>& targets, const PlanOptions& options,
                      const std::vector<std::vector<int>>& resamples, ArmHours& out) {
   out.hours = 0.0;
@@ -174,6 +204,7 @@ void answer_labelled(const ArmCells& arm, const std::vector<Target>& targets, co
     }
   }
   if (!out.problem.empty()) {
+    if (met_at_smallest_budget(targets, resamples, out)) return;
     out.reach = Reach::not_fitted;
     out.hours = kNaN;
     return;

@@ -40,6 +40,9 @@ struct ArmHours {
   std::vector<double> classical_means;  // classical arms: each target's metric, mean over repeats
   Reach reach = Reach::not_fitted;
   std::string problem;  // why there are no hours (not_fitted) or which target is out of reach
+  // Set when no curve could be fitted but every target is already met at the smallest budget
+  // measured: the hours are then that budget's, an upper bound (reach "below").
+  std::string note;
   double hours = 0.0;   // needed so that every target holds; +inf when unreachable
   double lower = 0.0;   // bootstrap percentile interval; +inf upper when some draws never reach
   double upper = 0.0;

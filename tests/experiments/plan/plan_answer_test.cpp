@@ -157,7 +157,7 @@ TEST(PlanAnswer, AgreementTargetsFitTheShortfallAndSeveralTargetsMustAllHold) {
 TEST(PlanAnswer, CurvesTheDataCannotSupportGiveAReasonAndNoHours) {
   std::vector<store::CellRecord> cells;
   add_arm(cells, {"two-budgets", "count-map", power_curve(4.0, 0.5, 0.2)}, 4, {5, 40});
-  add_arm(cells, {"rising", "count-map", [](double h, int r) { return 0.5 + 0.01 * h + repeat_shift(r); }}, 4);
+  add_arm(cells, {"rising", "count-map", [](double h, int r) { return 0.9 + 0.01 * h + repeat_shift(r); }}, 4);
   const PlanAnswer answer = answer_plan(cells, {parse_target("count.mae<=0.8", "--target")}, quick());
   EXPECT_EQ(answer.cheapest, -1);
   const ArmHours& two = arm_named(answer, "two-budgets");
@@ -247,6 +247,27 @@ TEST(PlanAnswer, ABudgetThatBoughtNothingMoreIsNotAnotherPoint) {
   const PlanAnswer answer = answer_plan(cells, {parse_target("count.mae<=0.8", "t")}, quick());
   EXPECT_EQ(answer.arms[0].reach, Reach::not_fitted);
   EXPECT_EQ(answer.arms[0].curves[0].budgets.size(), 2U);
+}
+
+}  // namespace
+}  // namespace frugal::plan
+
+namespace frugal::plan {
+namespace {
+
+TEST(PlanAnswer, ATargetMetAtTheSmallestBudgetNeedsNoCurve) {
+  // Flat error 0.5 at every budget: no curve (it does not fall), but 0.8 is met from the first
+  // budget on, so the smallest budget's hours are enough.
+  std::vector<store::CellRecord> cells;
+  add_arm(cells, {"flat", "count-map", [](double, int r) { return 0.5 + repeat_shift(r); }}, 4);
+  const PlanAnswer answer = answer_plan(cells, {parse_target("count.mae<=0.8", "t")}, quick());
+  ASSERT_EQ(answer.cheapest, 0);
+  const ArmHours& flat = answer.arms[0];
+  EXPECT_EQ(flat.reach, Reach::below);
+  EXPECT_TRUE(flat.problem.empty());
+  EXPECT_NE(flat.note.find("does not fall"), std::string::npos) << flat.note;
+  EXPECT_NEAR(flat.hours, 5.0 * (1.0 - 0.015), 1e-9);  // mean hours of repeats 0..3 at the 5 h budget
+  EXPECT_EQ(flat.upper, flat.hours);
 }
 
 }  // namespace
