@@ -1,7 +1,7 @@
 // frugal demo: the main job on the bundled demo study (studies/ageing-cohort.yaml, a fictional
-// ageing-cohort team with 40 annotator-hours): every plan, strategy, budget and repeat run into
-// DIR/results.db (resumed when it is there), then the answer per plan and budget with intervals
-// over repeats and the paired differences between plans.
+// ageing-cohort team with up to 32 annotator-hours): every plan, strategy, budget and repeat run
+// into DIR/results.db (resumed when it is there), then the measured table per plan and budget, the
+// hours each plan needs for the target (frugal plan), and the HTML report in DIR/report.
 
 #include <sys/wait.h>
 #include <unistd.h>
@@ -15,7 +15,10 @@
 
 #include "cli/commands.h"
 #include "cli/study_run.h"
+#include "cli/plan_table.h"
 #include "cli/study_table.h"
+#include "experiments/plan/plan_answer.h"
+#include "experiments/report/study_report.h"
 #include "experiments/store/results_store.h"
 #include "experiments/study/study_yaml.h"
 #include "phantoms/user_error.h"
@@ -29,6 +32,8 @@ struct DemoArguments {
   std::string study = std::string(FRUGAL_SOURCE_DIR) + "/studies/ageing-cohort.yaml";
   std::string out = "demo";
   int threads = 0;
+  // The demo team's question: which plan gets the count within 1.5 lesions on average.
+  std::vector<std::string> targets = {"count.mae<=1.5"};
 };
 
 void demo(const DemoArguments& arguments) {
@@ -54,11 +59,24 @@ void demo(const DemoArguments& arguments) {
               "subjects per repeat; mean over %d repeats, 95%% t-interval)\n\n",
               quantity.c_str(), options.cohort.test, options.repeats);
   std::fputs(format_study_table(results.cells(), quantity, "mae", true).c_str(), stdout);
-  std::printf("\nEvery cell's numbers: %s (frugal export %s --csv DIR for pandas or R).\n", store_path.c_str(),
+  std::vector<plan::Target> targets;
+  for (const std::string& text : arguments.targets) targets.push_back(plan::parse_target(text, "--target"));
+  const std::vector<store::CellRecord> cells = results.cells();
+  const plan::PlanOptions plan_options;
+  const plan::PlanAnswer answer = plan::answer_plan(cells, targets, plan_options);
+  std::vector<plan::ShortcutRow> shortcut;
+  for (const plan::Target& target : targets)
+    for (const plan::ShortcutRow& row : plan::shortcut_summary(cells, target, plan_options.confidence)) shortcut.push_back(row);
+  const auto repeatability = plan::repeatability_summary(cells, targets.front().quantity, plan_options.confidence);
+  std::printf("\nHow many annotator-hours does each plan need? (frugal plan %s --target %s)\n\n", store_path.c_str(),
+              arguments.targets.front().c_str());
+  std::fputs(format_plan_answer(answer, shortcut, repeatability, options.repeats).c_str(), stdout);
+  const report::StudyReportFiles report_files =
+      report::write_study_report(store_path, targets, plan_options, (fs::path(arguments.out) / "report").string());
+  std::printf("\nReport: %s (figures as SVG, PNG, PDF and CSV in %s/report/figures)\n", report_files.html.c_str(),
+              arguments.out.c_str());
+  std::printf("Every cell's numbers: %s (frugal export %s --csv DIR for pandas or R).\n", store_path.c_str(),
               store_path.c_str());
-  std::printf("Caution: synthetic phantoms and simulated raters. This guides a labelling plan and the choice of a "
-              "method;\nit does not validate a method for clinical use, replace a pilot on real data, or replace "
-              "ethics approval,\nlocal regulations and qualified clinical judgement.\n");
   if (summary.failed > 0)
     throw UserError(std::to_string(summary.failed) + " demo cells failed (see above; recorded in " + store_path + ")");
 }
@@ -68,11 +86,12 @@ void demo(const DemoArguments& arguments) {
 void add_demo_command(CLI::App& app) {
   auto arguments = std::make_shared<DemoArguments>();
   CLI::App* command = app.add_subcommand(
-      "demo", "Run the bundled demo study (a fictional ageing-cohort team: counts, outlines or clicks for 40 "
+      "demo", "Run the bundled demo study (a fictional ageing-cohort team: counts or outlines for up to 32 "
               "annotator-hours?) into DIR/results.db and print the answer (README.md).");
   command->add_option("--out", arguments->out, "Folder for results.db (resumed when present)")->capture_default_str();
   command->add_option("--study", arguments->study, "Another study file to run the same way")->capture_default_str();
   command->add_option("--threads", arguments->threads, "Torch threads per cell (default: the study's threads)");
+  command->add_option("--target", arguments->targets, "The question's targets, as for frugal plan")->capture_default_str();
   command->callback([arguments] { demo(*arguments); });
 }
 

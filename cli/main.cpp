@@ -149,6 +149,7 @@ int main(int argc, char** argv) {
   frugal::cli::add_merge_command(app);
   frugal::cli::add_export_command(app);
   frugal::cli::add_plan_command(app);
+  frugal::cli::add_report_command(app);
   frugal::cli::add_demo_command(app);
   // Every command's --seed, here once rather than in each command file.
   for (CLI::App* command : app.get_subcommands([](CLI::App*) { return true; }))

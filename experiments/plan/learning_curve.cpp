@@ -2,6 +2,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <cstdio>
 #include <limits>
 #include <map>
 #include <set>
@@ -15,7 +16,12 @@ namespace {
 
 constexpr double kLackOfFitLevel = 0.01;
 
-std::string number(double value) { return format_number(value); }
+// Three significant digits: messages quote measured values, not their last bits.
+std::string number(double value) {
+  char buffer[32];
+  std::snprintf(buffer, sizeof buffer, "%.3g", value);
+  return buffer;
+}
 
 double standard_error(const std::vector<double>& values) {
   const auto n = static_cast<double>(values.size());

@@ -2,6 +2,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <cstdio>
 #include <limits>
 #include <map>
 #include <nlohmann/json.hpp>
@@ -16,6 +17,13 @@
 
 namespace frugal::plan {
 namespace {
+
+// Three significant digits for messages.
+std::string short_number(double value) {
+  char buffer[32];
+  std::snprintf(buffer, sizeof buffer, "%.3g", value);
+  return buffer;
+}
 
 constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
 constexpr double kInfinity = std::numeric_limits<double>::infinity();
@@ -142,7 +150,7 @@ void answer_classical(const ArmCells& arm, const std::vector<Target>& targets,
     }
     if (!target.met_by(mean) && met) {
       met = false;
-      out.problem = target.text + ": " + arm.strategy + " learns from no labels and gives " + format_number(mean);
+      out.problem = target.text + ": " + arm.strategy + " learns from no labels and gives " + short_number(mean);
     }
   }
   out.reach = met ? Reach::no_labels : Reach::unreachable;
@@ -212,8 +220,8 @@ void answer_labelled(const ArmCells& arm, const std::vector<Target>& targets, co
   for (std::size_t k = 0; k < targets.size(); ++k) {
     const double needed = out.curves[k].fit.curve.hours_to_reach(targets[k].error_target());
     if (!std::isfinite(needed) && out.problem.empty())
-      out.problem = targets[k].text + ": the fitted floor of the error, " + format_number(out.curves[k].fit.curve.c) +
-                    ", lies above the target " + format_number(targets[k].error_target()) +
+      out.problem = targets[k].text + ": the fitted floor of the error, " + short_number(out.curves[k].fit.curve.c) +
+                    ", lies above the target " + short_number(targets[k].error_target()) +
                     (targets[k].at_least ? " (as 1 − " + targets[k].metric + ")" : "");
     out.hours = std::max(out.hours, needed);
   }
@@ -262,9 +270,9 @@ void answer_labelled(const ArmCells& arm, const std::vector<Target>& targets, co
       for (const BudgetMean& mean : out.curves[k].budgets) smallest_error = std::min(smallest_error, mean.error);
       if (high - low > kUnidentifiedFloor * smallest_error) {
         out.reach = Reach::not_fitted;
-        out.problem = targets[k].text + ": needs extrapolation to " + format_number(out.hours) +
+        out.problem = targets[k].text + ": needs extrapolation to " + short_number(out.hours) +
                       " h, but the error floor c is not identified by the budgets measured (resamples put it "
-                      "anywhere from " + format_number(low) + " to " + format_number(high) + ")";
+                      "anywhere from " + short_number(low) + " to " + short_number(high) + ")";
         out.hours = kNaN;
         return;
       }

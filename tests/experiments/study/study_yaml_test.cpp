@@ -426,9 +426,9 @@ std::size_t expected_cells(const StudyOptions& study) {
 TEST(StudyYamlExpandCells, AgeingCohortGivesEveryCellOnceWithDistinctKeys) {
   const StudyOptions study = read_study_file(kSource + "/studies/ageing-cohort.yaml");
   const std::vector<CellSpec> cells = expand_cells(study);
-  // 2 learned plans x 3 budgets x 3 repeats + 1 classical plan x 3 repeats, counted by hand from
+  // 2 learned plans x 6 budgets x 3 repeats + 1 classical plan x 3 repeats, counted by hand from
   // the study file; the formula is cell.h's.
-  EXPECT_EQ(cells.size(), 21U);
+  EXPECT_EQ(cells.size(), 39U);
   EXPECT_EQ(cells.size(), expected_cells(study));
   std::set<std::string> keys;
   int classical = 0;
