@@ -37,6 +37,7 @@ endif()
 if(FRUGAL_BUILD_BENCHMARKS)
   find_package(benchmark REQUIRED)
 endif()
-# Figures: PLplot's C++ binding; the cairo driver (plplot-driver-cairo) draws SVG, PNG and PDF.
+# Figures: PLplot's C++ binding and its C library (for the exit handler, plsexit); the cairo
+# driver (plplot-driver-cairo) draws SVG, PNG and PDF.
 find_package(PkgConfig REQUIRED)
-pkg_check_modules(PLPLOT REQUIRED IMPORTED_TARGET plplot-c++)
+pkg_check_modules(PLPLOT REQUIRED IMPORTED_TARGET plplot-c++ plplot)

@@ -20,12 +20,23 @@ std::string escape(const std::string& text) {
   out.reserve(text.size());
   for (const char c : text) {
     switch (c) {
-      case '&': out += "&amp;"; break;
-      case '<': out += "&lt;"; break;
-      case '>': out += "&gt;"; break;
-      case '"': out += "&quot;"; break;
-      case '\'': out += "&#39;"; break;
-      default: out += c;
+      case '&':
+        out += "&amp;";
+        break;
+      case '<':
+        out += "&lt;";
+        break;
+      case '>':
+        out += "&gt;";
+        break;
+      case '"':
+        out += "&quot;";
+        break;
+      case '\'':
+        out += "&#39;";
+        break;
+      default:
+        out += c;
     }
   }
   return out;
@@ -88,8 +99,8 @@ std::string attribute_name(const std::string& text, std::size_t quote) {
   --k;
   while (k > 0 && std::isspace(static_cast<unsigned char>(text[k - 1]))) --k;
   const std::size_t end = k;
-  while (k > 0 && (std::isalnum(static_cast<unsigned char>(text[k - 1])) || text[k - 1] == ':' ||
-                   text[k - 1] == '-' || text[k - 1] == '_'))
+  while (k > 0 && (std::isalnum(static_cast<unsigned char>(text[k - 1])) || text[k - 1] == ':' || text[k - 1] == '-' ||
+                   text[k - 1] == '_'))
     --k;
   return text.substr(k, end - k);
 }
@@ -156,7 +167,8 @@ std::string inline_svg(const std::string& file, const std::string& prefix, const
       if (end == std::string::npos) throw UserError(path + ": not an SVG file (an unterminated attribute value)");
       const std::string name = attribute_name(svg, j);
       if (name.compare(0, 2, "on") == 0)
-        throw UserError(path + ": an SVG figure with an event handler ('" + name + "'); a report embeds static figures only");
+        throw UserError(path + ": an SVG figure with an event handler ('" + name +
+                        "'); a report embeds static figures only");
       tag += quote + attribute_value(name, svg.substr(j + 1, end - j - 1), prefix, path) + quote;
       j = end + 1;
     }
@@ -190,7 +202,8 @@ std::string file_name(const std::string& path) { return std::filesystem::path(pa
 std::string figure_html(const FigureRef& figure, std::size_t number) {
   FRUGAL_CHECK(!figure.svg_path.empty() || !figure.png_path.empty());
   const std::string label = "Figure " + std::to_string(number) + ". " + figure.title;
-  std::string out = "<figure class=\"figure\" id=\"figure-" + std::to_string(number) + "\">\n<div class=\"figure-image\">";
+  std::string out =
+      "<figure class=\"figure\" id=\"figure-" + std::to_string(number) + "\">\n<div class=\"figure-image\">";
   if (!figure.svg_path.empty()) {
     const std::string prefix = "f" + std::to_string(number) + "-";
     out += inline_svg(read_figure_file(figure.svg_path), prefix, label, figure.svg_path);
@@ -223,14 +236,16 @@ std::string table_html(const Table& table) {
   out += "\n<tbody>\n";
   for (const std::vector<std::string>& row : table.rows) {
     out += "<tr>";
-    for (std::size_t c = 0; c < row.size(); ++c) out += std::string("<td") + cell_class(c) + ">" + escape(row[c]) + "</td>";
+    for (std::size_t c = 0; c < row.size(); ++c)
+      out += std::string("<td") + cell_class(c) + ">" + escape(row[c]) + "</td>";
     out += "</tr>\n";
   }
   return out + "</tbody></table></div>\n";
 }
 
 std::string cautions_box(const ReportDocument& document, const std::string& id, const char* heading) {
-  std::string out = "<aside class=\"cautions\" id=\"" + id + "\" aria-label=\"Cautions\">\n<h2>" + heading + "</h2>\n<ul>\n";
+  std::string out =
+      "<aside class=\"cautions\" id=\"" + id + "\" aria-label=\"Cautions\">\n<h2>" + heading + "</h2>\n<ul>\n";
   for (const std::string& caution : document.cautions) out += "<li>" + escape(caution) + "</li>\n";
   return out + "</ul>\n</aside>\n";
 }
@@ -310,10 +325,16 @@ window.addEventListener('load', function () {
 
 void write_html_report(const ReportDocument& document, const std::string& path) {
   require_writable_output(path, OutputKind::file, "a new or regular file for the report");
-  std::string html = "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n"
-                     "<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">\n"
-                     "<title>" + escape(document.title) + "</title>\n<style>" + kStyle + "</style>\n</head>\n<body>\n";
-  html += "<header>\n<h1>" + escape(document.title) + "</h1>\n<p class=\"answer\">" + escape(document.answer) + "</p>\n";
+  std::string html =
+      "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n"
+      "<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">\n"
+      // Everything is inside the file: the browser may load nothing from anywhere.
+      "<meta http-equiv=\"Content-Security-Policy\" content=\"default-src 'none'; "
+      "style-src 'unsafe-inline'; script-src 'unsafe-inline'; img-src data:\">\n"
+      "<title>" +
+      escape(document.title) + "</title>\n<style>" + kStyle + "</style>\n</head>\n<body>\n";
+  html +=
+      "<header>\n<h1>" + escape(document.title) + "</h1>\n<p class=\"answer\">" + escape(document.answer) + "</p>\n";
   if (!document.answer_details.empty()) {
     html += "<ul class=\"answer-details\">\n";
     for (const std::string& line : document.answer_details) html += "<li>" + escape(line) + "</li>\n";
@@ -340,7 +361,8 @@ void write_html_report(const ReportDocument& document, const std::string& path) 
   }
   html += "</main>\n";
   if (cautions) html += cautions_box(document, "cautions-again", "Cautions");
-  html += "<footer>" + escape(document.generated_by) + "</footer>\n<script>" + kScript + "</script>\n</body>\n</html>\n";
+  html +=
+      "<footer>" + escape(document.generated_by) + "</footer>\n<script>" + kScript + "</script>\n</body>\n</html>\n";
 
   WholeFile file(path);
   file.write(html);

@@ -37,7 +37,7 @@ struct ReportDocument {
   std::vector<std::string> answer_details;  // short lines under it
   std::vector<std::string> cautions;        // a box near the top, repeated at the end
   std::vector<Section> sections;
-  std::string generated_by;                 // footer: tool version, study hash, date
+  std::string generated_by;  // footer: tool version, study hash, date
 };
 
 }  // namespace frugal::report

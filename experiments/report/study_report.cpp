@@ -372,12 +372,18 @@ StudyReportFiles write_study_report(const std::string& store_path, const std::ve
   }
   document.cautions = plan::cautions();
 
-  Section question{"question", "The question and the study", settings_paragraphs(study, record, static_cast<int>(repeats.size())), {}, {}};
+  Section question{"question", "The question and the study", {}, {}, {}};
+  try {
+    question.paragraphs = settings_paragraphs(study, record, static_cast<int>(repeats.size()));
+    question.tables.push_back(cost_table(study));
+  } catch (const json::exception& error) {
+    throw UserError(store_path + ": the stored study is not one frugal run wrote (" + error.what() +
+                    "); allowed: a store written by frugal run");
+  }
   std::string target_list;
   for (const plan::Target& t : targets) target_list += (target_list.empty() ? "" : " and ") + t.text;
   question.paragraphs.insert(question.paragraphs.begin(),
                              "Which label plan reaches " + target_list + " on held-out phantoms for the fewest annotator-hours?");
-  question.tables.push_back(cost_table(study));
   document.sections.push_back(question);
 
   Section hours_section{"answer", "Hours needed", {}, {}, {hours_table(answer)}};

@@ -31,7 +31,11 @@ def write_store(path, arms):
         schema = file.read()
     db = sqlite3.connect(path)
     db.executescript(schema)
-    study = {"name": "synthetic", "plans": [], "cohort": {"pool": 100, "test": 10}, "scenario": {"name": "s"}}
+    cost = {"count_per_image_s": 12, "count_per_lesion_s": 1, "outline_per_image_s": 30}
+    study = {"name": "synthetic", "seed": 1, "budgets": BUDGETS, "budget_unit": "hours", "repeats": REPEATS,
+             "training_images": 100, "cohort": {"pool": 100, "test": 10}, "scenario": {"name": "s", "family": "streaks"},
+             "plans": [{"name": plan, "kind": "count", "raters_per_image": 1, "strategies": [strategy],
+                        "rater": {"name": "invented panel", "cost": cost}} for plan, strategy, *_ in arms]}
     meta = {"schema_version": "1", "tool": "frugal", "tool_version": "0.1.0", "study_name": "synthetic",
             "study_hash": "ab" * 32, "cells_total": "0", "resolved_yaml": json.dumps(study)}
     db.executemany("INSERT INTO meta VALUES (?, ?)", meta.items())
@@ -49,6 +53,10 @@ def write_store(path, arms):
                             hours, 0, 0, 0, 0, 0))
                 db.execute("INSERT INTO metrics VALUES (?,?,?,?,?,?,?,?,?)",
                            (key, "test", "count", "mae", mae, None, None, 10, ""))
+                for subject in range(10):  # invented predictions, for the agreement figures
+                    truth = float(subject % 6)
+                    db.execute("INSERT INTO predictions VALUES (?,?,?,?,?,?,?)",
+                               (key, "test", 1000 * repeat + subject, 0, "count", truth + shift(subject, k), truth))
     db.commit()
     db.close()
     return points
@@ -90,6 +98,40 @@ class PlanCommand(unittest.TestCase):
         missing = frugal_testing.run_frugal(FRUGAL, "plan", os.path.join(SCRATCH, "none.db"), "--target",
                                             "count.mae<=1", expect=2)
         self.assertIn("none.db", missing.stderr)
+
+
+class ReportCommand(unittest.TestCase):
+    def test_figures_and_their_csvs_hold_the_plotted_series(self):
+        store = os.path.join(SCRATCH, "report.db")
+        write_store(store, [("counts", "count-map", 4.0, 0.5, 0.2), ("outlines", "mask", 6.0, 0.5, 0.2)])
+        out = os.path.join(SCRATCH, "report")
+        frugal_testing.run_frugal(FRUGAL, "report", store, "--target", "count.mae<=0.8", "--out", out, "--draws", "200")
+        figures = os.path.join(out, "figures")
+        for stem in ["cost-error", "learning-curve-counts-count-map", "learning-curve-outlines-mask",
+                     "estimate-vs-truth", "bland-altman"]:
+            for extension in ["svg", "png", "pdf", "csv"]:
+                path = os.path.join(figures, f"{stem}.{extension}")
+                self.assertGreater(os.path.getsize(path), 200, path)
+        rows = frugal_testing.read_table(os.path.join(figures, "learning-curve-counts-count-map.csv"))
+        each = [r for r in rows if r["series"] == "each repeat"]
+        self.assertEqual(len(each), REPEATS * len(BUDGETS))
+        self.assertEqual(len([r for r in rows if r["series"] == "mean over repeats"]), len(BUDGETS))
+        fitted = [r for r in rows if r["series"] == "fitted curve"]
+        with open(os.path.join(out, "plan.json")) as file:
+            fit = json.load(file)["arms"][0]["curves"][0]["fit"]
+        for row in fitted:  # the plotted line is the fitted curve itself
+            h = float(row["x"])
+            self.assertAlmostEqual(float(row["y"]), fit["a"] * h ** -fit["b"] + fit["c"], delta=1e-9)
+        target = [r for r in rows if r["style"] == "horizontal_line"]
+        self.assertEqual([float(r["y"]) for r in target], [0.8])
+        subjects = frugal_testing.read_table(os.path.join(figures, "bland-altman.csv"))
+        self.assertEqual(len([r for r in subjects if r["series"] == "subjects"]), REPEATS * 10)
+        with open(os.path.join(out, "report.html")) as file:
+            html = file.read()
+        self.assertIn("cheapest plan is counts / count-map", html)
+        self.assertIn("do not validate a method for clinical use", html)
+        self.assertNotIn("http://", html.replace("http://www.w3.org/", ""))  # SVG namespaces are names, not fetches
+        self.assertNotIn("https://", html)
 
 
 def configure(frugal, source, scratch):
