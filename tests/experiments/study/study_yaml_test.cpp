@@ -394,7 +394,7 @@ TEST(StudyYamlBundledStudies, AgeingCohortReadsAsWritten) {
   EXPECT_EQ(study.plans[0].kind, LabelKind::count);
   EXPECT_EQ(study.plans[1].kind, LabelKind::outline);
   EXPECT_FALSE(study.plans[2].labelled);
-  EXPECT_EQ(study.budgets, (std::vector<double>{5.0, 15.0, 40.0}));
+  EXPECT_EQ(study.budgets, (std::vector<double>{1.0, 2.0, 4.0, 8.0, 16.0, 32.0}));
   EXPECT_EQ(study.budget_unit, BudgetUnit::hours);
   EXPECT_EQ(study.repeats, 3);
   EXPECT_EQ(study.training_images, 2400);
