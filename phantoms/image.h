@@ -38,6 +38,14 @@ struct Geometry {
             origin_mm[1] + direction[3] * local[0] + direction[4] * local[1] + direction[5] * local[2],
             origin_mm[2] + direction[6] * local[0] + direction[7] * local[1] + direction[8] * local[2]};
   }
+  // The inverse of world_mm: the direction matrix is a rotation, so its transpose inverts it.
+  std::array<double, 3> continuous_index(const std::array<double, 3>& world) const {
+    const double offset[3] = {world[0] - origin_mm[0], world[1] - origin_mm[1], world[2] - origin_mm[2]};
+    std::array<double, 3> index{};
+    for (int a = 0; a < 3; ++a)
+      index[a] = (direction[a] * offset[0] + direction[3 + a] * offset[1] + direction[6 + a] * offset[2]) / spacing_mm[a];
+    return index;
+  }
 };
 
 // Aborts in every build: for broken internal invariants, never for user input.

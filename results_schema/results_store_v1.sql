@@ -76,3 +76,17 @@ CREATE TABLE label_costs (
   seconds REAL                -- annotator seconds under the rater's cost model
 );
 CREATE INDEX label_costs_cell_key ON label_costs (cell_key);
+
+-- A few pictures per cell for the report: 2D slices of the first held-out test subject with a
+-- lesion and of the first label bought.
+CREATE TABLE example_maps (
+  cell_key TEXT NOT NULL REFERENCES cells (key),
+  role TEXT NOT NULL,       -- 'test_image', 'test_truth', 'prediction', 'label_image', 'label'
+  subject INTEGER NOT NULL, -- subject index of the test or pool phantom set
+  caption TEXT NOT NULL,    -- what the picture shows
+  scale TEXT NOT NULL CHECK (scale IN ('grey', 'probability')),
+  width INTEGER NOT NULL,
+  height INTEGER NOT NULL,
+  pixels BLOB NOT NULL      -- width * height float32, little-endian, row-major
+);
+CREATE INDEX example_maps_cell_key ON example_maps (cell_key);

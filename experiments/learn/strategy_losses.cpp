@@ -45,14 +45,8 @@ std::vector<float> click_target(const FloatImage& image, const std::vector<Click
   const Geometry& geometry = image.geometry();
   const Shape shape = image.shape();
   std::vector<float> target(image.size(), 0.0F);
-  const auto& d = geometry.direction;
   for (const Click& click : clicks) {
-    // World to continuous voxel index: the direction matrix is a rotation, so its transpose inverts it.
-    std::array<double, 3> offset{};
-    for (int a = 0; a < 3; ++a) offset[a] = click.position_mm[a] - geometry.origin_mm[a];
-    std::array<double, 3> index{};
-    for (int a = 0; a < 3; ++a)
-      index[a] = (d[a] * offset[0] + d[3 + a] * offset[1] + d[6 + a] * offset[2]) / geometry.spacing_mm[a];
+    const std::array<double, 3> index = geometry.continuous_index(click.position_mm);
     const int reach[3] = {static_cast<int>(std::ceil(radius_mm / geometry.spacing_mm[0])),
                           static_cast<int>(std::ceil(radius_mm / geometry.spacing_mm[1])),
                           shape.z > 1 ? static_cast<int>(std::ceil(radius_mm / geometry.spacing_mm[2])) : 0};

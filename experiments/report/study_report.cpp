@@ -8,6 +8,7 @@
 #include <set>
 
 #include "experiments/figures/figure.h"
+#include "experiments/figures/image_panel.h"
 #include "experiments/measure/bland_altman.h"
 #include "experiments/plan/cautions.h"
 #include "experiments/plan/plan_json.h"
@@ -61,6 +62,10 @@ std::string metric_label(const plan::Target& target) { return target.quantity + 
 // The metric as the user reads it, from the curve's error (1 − error for agreements).
 double metric_of(const plan::Target& target, double error) { return target.at_least ? 1.0 - error : error; }
 
+// Hours on a log axis: a cell that spent none (a free rater in a foreign store) cannot be placed;
+// NaN leaves the point out (the curve's fit names the problem).
+double log_axis_hours(double value) { return value > 0.0 ? value : kNaN; }
+
 std::vector<double> hour_grid(double low, double high) {
   std::vector<double> grid;
   const int steps = 60;
@@ -93,12 +98,12 @@ figures::Figure learning_curve_figure(const plan::ArmHours& arm, std::size_t k, 
   figure.caption = "each repeat's value; mean per budget with its t-interval; fitted a*h^-b + c and its bootstrap band";
   figures::Series each{"each repeat", figures::SeriesStyle::points, {}, {}, {}, {}, 0};
   for (const plan::CurvePoint& p : curve.points) {
-    each.x.push_back(p.hours);
+    each.x.push_back(log_axis_hours(p.hours));
     each.y.push_back(p.value);
   }
   figures::Series means{"mean over repeats", figures::SeriesStyle::error_bars, {}, {}, {}, {}, 1};
   for (const plan::BudgetMean& mean : curve.budgets) {
-    means.x.push_back(mean.hours);
+    means.x.push_back(log_axis_hours(mean.hours));
     means.y.push_back(metric_of(target, mean.error));
     const double a = metric_of(target, mean.lower);
     const double b = metric_of(target, mean.upper);
@@ -158,7 +163,7 @@ figures::Figure cost_error_figure(const plan::PlanAnswer& answer, std::size_t k)
     const plan::LearningCurve& curve = arm.curves[k];
     figures::Series means{name, figures::SeriesStyle::error_bars, {}, {}, {}, {}, colour};
     for (const plan::BudgetMean& mean : curve.budgets) {
-      means.x.push_back(mean.hours);
+      means.x.push_back(log_axis_hours(mean.hours));
       means.y.push_back(metric_of(target, mean.error));
       const double a = metric_of(target, mean.lower);
       const double b = metric_of(target, mean.upper);
@@ -243,6 +248,40 @@ void agreement_figures(const std::vector<store::CellRecord>& cells, const plan::
           "Bias " + fixed(ba.bias, 3) + " (95% CI " + fixed(ba.bias_interval.lower, 3) + " to " +
               fixed(ba.bias_interval.upper, 3) + "), limits of agreement " + fixed(ba.lower_limit, 3) + " to " +
               fixed(ba.upper_limit, 3) + ", " + std::to_string(ba.subjects) + " subjects (Bland & Altman 1986).");
+}
+
+// One panel per plan and strategy at its largest budget, first repeat: a held-out subject, its exact
+// lesion mask and the prediction, then the first label the cell bought.
+void example_panels(const std::vector<store::CellRecord>& cells, const plan::PlanAnswer& answer,
+                    const std::string& folder, std::vector<FigureRef>& refs, std::vector<std::string>& files) {
+  static const std::vector<std::string> order = {"test_image", "test_truth", "prediction", "label_image", "label"};
+  for (const plan::ArmHours& arm : answer.arms) {
+    const store::CellRecord* chosen = nullptr;
+    for (const store::CellRecord& cell : cells) {
+      if (cell.status != "done" || cell.plan != arm.plan || cell.strategy != arm.strategy || cell.example_maps.empty())
+        continue;
+      if (!chosen || cell.budget > chosen->budget || (cell.budget == chosen->budget && cell.repeat < chosen->repeat))
+        chosen = &cell;
+    }
+    if (!chosen) continue;
+    std::vector<figures::Tile> tiles;
+    for (const std::string& role : order)
+      for (const store::ExampleMap& map : chosen->example_maps)
+        if (map.role == role)
+          tiles.push_back({map.caption, map.width, map.height, map.pixels,
+                           map.scale == "probability" ? figures::Tile::Scale::probability : figures::Tile::Scale::grey_auto});
+    const std::string path = (fs::path(folder) / ("example-" + stem(arm.plan + "-" + arm.strategy) + ".png")).string();
+    figures::write_panel_png(tiles, path);
+    files.push_back(path);
+    const std::string budget = arm.labelled ? ", " + format_number(chosen->budget) + " " + chosen->budget_unit + " budget" : "";
+    refs.push_back({"Example: " + arm.plan + " / " + arm.strategy + budget,
+                    "Repeat " + std::to_string(chosen->repeat) + ": the first held-out phantom with a lesion on its "
+                    "slice, its exact lesion mask and the model's map" +
+                        std::string(arm.labelled ? ", then the first label the cell bought, on its own training image" : "") +
+                        ". Probabilities in the cividis colour map (0 to 1); images and other maps in grey, stretched "
+                        "from their 1st to 99th percentile.",
+                    "", path, ""});
+  }
 }
 
 Table hours_table(const plan::PlanAnswer& answer) {
@@ -437,6 +476,12 @@ StudyReportFiles write_study_report(const std::string& store_path, const std::ve
   figures.refs.clear();
   for (const plan::Target& target : targets) agreement.tables.push_back(measured_table(cells, target));
   document.sections.push_back(agreement);
+
+  Section examples{"examples", "What the images, labels and predictions look like", {}, {}, {}};
+  example_panels(cells, answer, figures.folder, examples.figures, figures.files);
+  if (examples.figures.empty())
+    examples.paragraphs.push_back("The store holds no example pictures.");
+  document.sections.push_back(examples);
 
   Section checks{"checks", "Shortcut and repeatability", {}, {}, {}};
   if (shortcut.empty())

@@ -34,6 +34,11 @@ bool same(const LabelCostRow& a, const LabelCostRow& b) {
          same(a.seconds, b.seconds);
 }
 
+bool same(const ExampleMap& a, const ExampleMap& b) {
+  return a.role == b.role && a.subject == b.subject && a.caption == b.caption && a.scale == b.scale &&
+         a.width == b.width && a.height == b.height && a.pixels == b.pixels;
+}
+
 template <class Row>
 bool same(const std::vector<Row>& a, const std::vector<Row>& b) {
   if (a.size() != b.size()) return false;
@@ -49,7 +54,7 @@ bool same_results(const CellRecord& a, const CellRecord& b) {
          a.budget_unit == b.budget_unit && a.repeat == b.repeat && a.spec_json == b.spec_json && a.status == b.status &&
          a.error == b.error && a.labels_bought == b.labels_bought && same(a.hours_spent, b.hours_spent) &&
          same(a.metrics, b.metrics) && same(a.predictions, b.predictions) && same(a.training_curve, b.training_curve) &&
-         same(a.label_costs, b.label_costs);
+         same(a.label_costs, b.label_costs) && same(a.example_maps, b.example_maps);
 }
 
 bool same_study(const StudyRecord& a, const StudyRecord& b) {

@@ -4,6 +4,8 @@
 
 #include <chrono>
 #include <cmath>
+#include <cstdint>
+#include <cstring>
 #include <filesystem>
 #include <limits>
 #include <map>
@@ -103,6 +105,20 @@ CREATE TABLE label_costs (
   seconds REAL                -- annotator seconds under the rater's cost model
 );
 CREATE INDEX label_costs_cell_key ON label_costs (cell_key);
+
+-- A few pictures per cell for the report: 2D slices of the first held-out test subject with a
+-- lesion and of the first label bought.
+CREATE TABLE example_maps (
+  cell_key TEXT NOT NULL REFERENCES cells (key),
+  role TEXT NOT NULL,       -- 'test_image', 'test_truth', 'prediction', 'label_image', 'label'
+  subject INTEGER NOT NULL, -- subject index of the test or pool phantom set
+  caption TEXT NOT NULL,    -- what the picture shows
+  scale TEXT NOT NULL CHECK (scale IN ('grey', 'probability')),
+  width INTEGER NOT NULL,
+  height INTEGER NOT NULL,
+  pixels BLOB NOT NULL      -- width * height float32, little-endian, row-major
+);
+CREATE INDEX example_maps_cell_key ON example_maps (cell_key);
 )sql";
   return sql;
 }
@@ -185,6 +201,10 @@ class Statement {
     return *this;
   }
   Statement& bind(int index, int number) { return bind(index, static_cast<long long>(number)); }
+  Statement& bind(int index, const std::vector<unsigned char>& bytes) {
+    check(sqlite3_bind_blob64(statement_.get(), index, bytes.data(), bytes.size(), SQLITE_TRANSIENT));
+    return *this;
+  }
   Statement& bind(int index, double number) {
     check(std::isnan(number) ? sqlite3_bind_null(statement_.get(), index)
                              : sqlite3_bind_double(statement_.get(), index, number));
@@ -209,6 +229,11 @@ class Statement {
     const auto* characters = reinterpret_cast<const char*>(sqlite3_column_text(statement_.get(), column));
     if (characters == nullptr) return {};
     return std::string(characters, static_cast<std::size_t>(sqlite3_column_bytes(statement_.get(), column)));
+  }
+  std::vector<unsigned char> blob(int column) const {
+    const auto* bytes = static_cast<const unsigned char*>(sqlite3_column_blob(statement_.get(), column));
+    const auto size = static_cast<std::size_t>(sqlite3_column_bytes(statement_.get(), column));
+    return bytes == nullptr ? std::vector<unsigned char>{} : std::vector<unsigned char>(bytes, bytes + size);
   }
   int integer(int column) const { return static_cast<int>(sqlite3_column_int64(statement_.get(), column)); }
   double real(int column) const {
@@ -349,10 +374,33 @@ void configure_writer(const Connection& connection) {
   connection.execute("PRAGMA synchronous = NORMAL", "configuring the store");
 }
 
+// float32 pixels as little-endian bytes whatever the machine, so a store reads the same everywhere.
+std::vector<unsigned char> pixel_bytes(const std::vector<float>& pixels) {
+  std::vector<unsigned char> bytes;
+  bytes.reserve(pixels.size() * 4);
+  for (float pixel : pixels) {
+    std::uint32_t bits = 0;
+    std::memcpy(&bits, &pixel, 4);
+    for (int shift = 0; shift < 32; shift += 8) bytes.push_back(static_cast<unsigned char>(bits >> shift));
+  }
+  return bytes;
+}
+
+std::vector<float> pixels_from_bytes(const std::vector<unsigned char>& bytes) {
+  std::vector<float> pixels(bytes.size() / 4);
+  for (std::size_t i = 0; i < pixels.size(); ++i) {
+    std::uint32_t bits = 0;
+    for (int b = 3; b >= 0; --b) bits = (bits << 8) | bytes[4 * i + static_cast<std::size_t>(b)];
+    std::memcpy(&pixels[i], &bits, 4);
+  }
+  return pixels;
+}
+
 void delete_cell(const Connection& connection, const std::string& key) {
   for (const char* sql : {"DELETE FROM metrics WHERE cell_key = ?1", "DELETE FROM predictions WHERE cell_key = ?1",
                           "DELETE FROM training_curves WHERE cell_key = ?1",
-                          "DELETE FROM label_costs WHERE cell_key = ?1", "DELETE FROM cells WHERE key = ?1"})
+                          "DELETE FROM label_costs WHERE cell_key = ?1", "DELETE FROM example_maps WHERE cell_key = ?1",
+                          "DELETE FROM cells WHERE key = ?1"})
     Statement(connection, sql).bind(1, key).run("replacing a failed cell");
 }
 
@@ -421,6 +469,21 @@ void insert_cell(const Connection& connection, const CellRecord& cell) {
         .bind(5, row.kind)
         .bind(6, row.seconds)
         .run(doing);
+  Statement picture(connection,
+                    "INSERT INTO example_maps (cell_key, role, subject, caption, scale, width, height, pixels) "
+                    "VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8)");
+  for (const ExampleMap& map : cell.example_maps) {
+    FRUGAL_CHECK(map.pixels.size() == static_cast<std::size_t>(map.width) * static_cast<std::size_t>(map.height));
+    picture.bind(1, cell.key)
+        .bind(2, map.role)
+        .bind(3, map.subject)
+        .bind(4, map.caption)
+        .bind(5, map.scale)
+        .bind(6, map.width)
+        .bind(7, map.height)
+        .bind(8, pixel_bytes(map.pixels))
+        .run(doing);
+  }
 }
 
 }  // namespace
@@ -564,6 +627,20 @@ std::vector<CellRecord> ResultsStore::cells() const {
   Statement cost(connection, "SELECT cell_key, part, subject, rater, kind, seconds FROM label_costs ORDER BY rowid");
   while (cost.step(doing))
     owner(cost).label_costs.push_back({cost.text(1), cost.integer(2), cost.integer(3), cost.text(4), cost.real(5)});
+  Statement picture(connection,
+                    "SELECT cell_key, role, subject, caption, scale, width, height, pixels FROM example_maps "
+                    "ORDER BY rowid");
+  while (picture.step(doing)) {
+    ExampleMap map{picture.text(1), picture.integer(2), picture.text(3), picture.text(4),
+                   picture.integer(5), picture.integer(6), pixels_from_bytes(picture.blob(7))};
+    if (map.width < 0 || map.height < 0 ||
+        map.pixels.size() != static_cast<std::size_t>(map.width) * static_cast<std::size_t>(map.height))
+      throw UserError(connection.path() + ": the results store is damaged (an example picture of cell " +
+                      picture.text(0) + " holds " + std::to_string(map.pixels.size()) + " pixels for " +
+                      std::to_string(map.width) + " x " + std::to_string(map.height) +
+                      "); restore it from a copy or run the study into a new --out file");
+    owner(picture).example_maps.push_back(std::move(map));
+  }
   snapshot.commit();
   return cells;
 }

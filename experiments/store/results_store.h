@@ -1,7 +1,8 @@
 #pragma once
 // The results store of a study: one SQLite file (results_schema/results_store_v1.sql) holding the
 // resolved study, one row per finished or failed cell, and the cell's metric rows, per-subject
-// predictions against truth, per-epoch training curve and the cost of every label it bought.
+// predictions against truth, per-epoch training curve, the cost of every label it bought and a few
+// example pictures for the report.
 // Each cell is written in one transaction, so a run killed at any moment leaves every finished
 // cell whole and no cell half-written. Torch-free; plain value types only.
 
@@ -51,6 +52,19 @@ struct LabelCostRow {
   double seconds = 0.0;
 };
 
+// One picture a cell keeps for its report: a 2D slice (the reference slice of a 3D subject) of
+// the first held-out test subject with a lesion (image, truth, prediction map) or of the first
+// label the cell bought (its image and the label).
+struct ExampleMap {
+  std::string role;     // "test_image", "test_truth", "prediction", "label_image", "label"
+  int subject = 0;      // subject index of the test or pool phantom set
+  std::string caption;  // what the picture shows, for the panel ("count label: 7")
+  std::string scale;    // "grey" (stretched to its own range) or "probability" (0..1)
+  int width = 0;
+  int height = 0;
+  std::vector<float> pixels;  // row-major, width x height
+};
+
 struct CellRecord {
   std::string key;          // stable hash of the resolved cell (hex)
   std::string plan;         // label plan name from the study file
@@ -72,6 +86,7 @@ struct CellRecord {
   std::vector<SubjectPrediction> predictions;
   std::vector<EpochRow> training_curve;
   std::vector<LabelCostRow> label_costs;
+  std::vector<ExampleMap> example_maps;
 };
 
 struct StudyRecord {
@@ -119,7 +134,8 @@ void merge_stores(const std::vector<std::string>& inputs, const std::string& out
 
 // Tidy exports, one row per observation: cells.csv, metrics.csv, predictions.csv,
 // training_curves.csv, label_costs.csv in `folder` (created; files written whole), and one JSON
-// document with the study and every table.
+// document with the study and the same tables. The example pictures stay in the store (float32
+// BLOBs, results_store_v1.md says how to read them).
 void export_csv(const ResultsStore& store, const std::string& folder);
 void export_json(const ResultsStore& store, const std::string& file);
 

@@ -9,6 +9,7 @@
 
 #include "corruptors/grade.h"
 #include "corruptors/labeler.h"
+#include "experiments/study/example_maps.h"
 #include "experiments/measure/kappa.h"
 #include "experiments/scoring/scoring.h"
 #include "phantoms/phantom.h"
@@ -352,6 +353,7 @@ CellResult run_cell(const CellSpec& spec, CohortCache* shared_cache, const std::
       const Purchase purchase = buy(LabelSource(*plan, pool), spec, spec.budget * share, order, cache, generate_seconds);
       for (const Label* label : purchase.labels) {
         const Subject& subject = cache.subject(pool, label->subject, 0);
+        if (result.example_maps.empty()) result.example_maps = label_example_maps(subject, *label);
         training.add(subject.image, *label);
         result.label_costs.push_back({part, label->subject, label->rater, to_string(label->kind), label->cost_seconds});
       }
@@ -456,6 +458,11 @@ CellResult run_cell(const CellSpec& spec, CohortCache* shared_cache, const std::
     decorrelated_predictions = predict_all(decorrelated_test);
   }
   result.seconds_predict = seconds_since(predict_start);
+
+  const std::size_t example = example_subject(test);
+  const std::vector<store::ExampleMap> test_maps =
+      test_example_maps(*test[example], test_predictions[example], spec.train.strategy);
+  result.example_maps.insert(result.example_maps.begin(), test_maps.begin(), test_maps.end());
 
   // Scores against the exact truth.
   report("score");

@@ -76,6 +76,22 @@ class ResultsStoreReference(unittest.TestCase):
             self.assertEqual(counts, {"a1": 4, "b2": 5})
             self.assertEqual(db.execute("SELECT count(*) FROM predictions WHERE truth IS NULL").fetchone()[0], 2)
 
+    def test_example_pictures_read_with_the_documented_recipe(self):
+        import numpy  # Debian python3-numpy
+        with self.connect() as db:
+            rows = db.execute("SELECT cell_key, role, width, height, pixels FROM example_maps "
+                              "ORDER BY cell_key, rowid").fetchall()
+        # cell(key, i) keeps i % 3 pictures: 1 for a1, 2 for b2; picture m is (3 + m) x 2 with pixel
+        # p = -1.5e-3 p^2 + 0.123456 m, in float32.
+        self.assertEqual([(r[0], r[1]) for r in rows], [("a1", "test_image"), ("b2", "test_image"), ("b2", "label")])
+        for m, (key, role, width, height, blob) in zip([0, 0, 1], rows):
+            self.assertEqual((width, height), (3 + m, 2), key)
+            # The recipe of results_schema/results_store_v1.md.
+            picture = numpy.frombuffer(blob, "<f4").reshape(height, width)
+            p = numpy.arange(width * height, dtype=numpy.float32).reshape(height, width)
+            expected = numpy.float32(-1.5e-3) * p * p + numpy.float32(0.123456) * numpy.float32(m)
+            numpy.testing.assert_allclose(picture, expected, rtol=1e-6, atol=1e-9, err_msg=key)
+
     def test_csv_matches_the_store(self):
         with open(reference("csv", "metrics.csv"), newline="") as table:
             first = table.readline()

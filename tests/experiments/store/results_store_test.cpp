@@ -84,6 +84,14 @@ CellRecord cell(const std::string& key, int index, const std::string& status = "
   for (int l = 0; l < 4 + index % 3; ++l)
     c.label_costs.push_back({index % 2 == 0 ? "" : (l % 2 == 0 ? "strong" : "weak"), 20 + l, l % 3,
                              l % 2 == 0 ? "count" : "outline", 12.5 + l});
+  // Pictures of odd sizes, with values whose bytes differ in every position (a swapped byte order
+  // or a transposed row would not read back).
+  for (int m = 0; m < index % 3; ++m) {
+    ExampleMap map{m == 0 ? "test_image" : "label", 600000 + m, "caption " + std::to_string(m) + kAwkwardText,
+                          m == 0 ? "grey" : "probability", 3 + m, 2, {}};
+    for (int p = 0; p < map.width * map.height; ++p) map.pixels.push_back(-1.5e-3F * static_cast<float>(p * p) + 0.123456F * m);
+    c.example_maps.push_back(map);
+  }
   return c;
 }
 
@@ -153,6 +161,18 @@ void expect_same_cell(const CellRecord& a, const CellRecord& b) {
     EXPECT_EQ(x.rater, y.rater) << k;
     EXPECT_EQ(x.kind, y.kind) << k;
     expect_same(x.seconds, y.seconds, k + "label seconds");
+  }
+  ASSERT_EQ(a.example_maps.size(), b.example_maps.size()) << k;
+  for (std::size_t i = 0; i < a.example_maps.size(); ++i) {
+    const ExampleMap& x = a.example_maps[i];
+    const ExampleMap& y = b.example_maps[i];
+    EXPECT_EQ(x.role, y.role) << k;
+    EXPECT_EQ(x.subject, y.subject) << k;
+    EXPECT_EQ(x.caption, y.caption) << k;
+    EXPECT_EQ(x.scale, y.scale) << k;
+    EXPECT_EQ(x.width, y.width) << k;
+    EXPECT_EQ(x.height, y.height) << k;
+    EXPECT_EQ(x.pixels, y.pixels) << k;  // bit for bit
   }
 }
 

@@ -122,6 +122,12 @@ void expect_same_cell(const store::CellRecord& a, const store::CellRecord& b) {
     EXPECT_EQ(a.label_costs[i].subject, b.label_costs[i].subject);
     EXPECT_EQ(a.label_costs[i].seconds, b.label_costs[i].seconds);
   }
+  ASSERT_EQ(a.example_maps.size(), b.example_maps.size());
+  for (std::size_t i = 0; i < a.example_maps.size(); ++i) {
+    EXPECT_EQ(a.example_maps[i].role, b.example_maps[i].role);
+    EXPECT_EQ(a.example_maps[i].caption, b.example_maps[i].caption);
+    EXPECT_EQ(a.example_maps[i].pixels, b.example_maps[i].pixels) << a.example_maps[i].role;
+  }
 }
 
 void expect_same_store(const std::vector<store::CellRecord>& a, const std::vector<store::CellRecord>& b) {
@@ -184,6 +190,24 @@ TEST(StudyRunner, TinyStudyFillsTheStoreAsTheStudySays) {
     EXPECT_NEAR(mae, absolute / 6.0, 1e-12);
     EXPECT_FALSE(std::isnan(metric(cell, "rescan", "count", "repeatability_coefficient")) &&
                  metric(cell, "rescan", "count", "repeatability_coefficient") < 0.0);
+    // Pictures for the report: the held-out subject (image, truth, map), then the first label
+    // bought; a count is named in the caption, an outline drawn (example_maps.h).
+    std::vector<std::string> roles;
+    for (const store::ExampleMap& map : cell.example_maps) {
+      roles.push_back(map.role);
+      EXPECT_EQ(map.pixels.size(), 32U * 32U) << map.role;
+    }
+    const std::vector<std::string> test_roles = {"test_image", "test_truth", "prediction"};
+    std::vector<std::string> expected_roles = test_roles;
+    if (cell.plan == "counts") expected_roles.push_back("label_image");
+    if (cell.plan == "outlines" || cell.plan == "mix") {
+      expected_roles.push_back("label_image");
+      expected_roles.push_back("label");
+    }
+    EXPECT_EQ(roles, expected_roles);
+    if (cell.plan == "counts") {
+      EXPECT_EQ(cell.example_maps[3].caption.rfind("count label: ", 0), 0U);
+    }
   }
 }
 
