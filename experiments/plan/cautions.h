@@ -1,5 +1,5 @@
 #pragma once
-// The cautions every answer of frugal carries (DESIGN.md §8): what results on phantoms can and
+// The cautions every answer of frugal carries: what results on phantoms can and
 // cannot support. The plan command, the demo and the report print the same words.
 
 #include <string>

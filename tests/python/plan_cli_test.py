@@ -73,7 +73,7 @@ class PlanCommand(unittest.TestCase):
         self.assertEqual(answer["cheapest"], "counts / count-map")
         for arm in answer["arms"]:
             hours, mae = np.array(points[arm["plan"]]).T
-            # Figueroa et al. (2012) weights: sigma = 1/sqrt(h / sum h), as VALIDATION.md §8.
+            # Figueroa et al. (2012, BMC Med Inform Decis Mak 12:8) weights: sigma = 1/sqrt(h / sum h).
             p, _ = curve_fit(lambda h, a, b, c: a * np.power(h, -b) + c, hours, mae, p0=(1, 0.3, 0),
                              sigma=1 / np.sqrt(hours / hours.sum()), maxfev=20000)
             fit = arm["curves"][0]["fit"]
