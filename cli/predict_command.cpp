@@ -70,12 +70,14 @@ std::vector<Input> gather_inputs(const std::vector<std::string>& paths, nlohmann
   for (const std::string& path : paths) {
     std::error_code ignored;
     if (fs::is_directory(path, ignored)) {
+      // The manifest first: a killed frugal phantoms leaves a folder without it (and perhaps
+      // without truth.csv), which must be named unfinished, not merely incomplete.
+      read_folder_manifest(path, "phantom_set",
+                           "a phantom set folder (frugal phantoms) or NIfTI files (.nii, .nii.gz)");
       if (!fs::exists(fs::path(path) / "truth.csv", ignored))
         throw UserError(path +
                         ": a folder without truth.csv; allowed: a phantom set folder (frugal phantoms) or "
                         "NIfTI files (.nii, .nii.gz)");
-      read_folder_manifest(path, "phantom_set",
-                           "a phantom set folder (frugal phantoms) or NIfTI files (.nii, .nii.gz)");
       const PhantomSetIndex set = read_phantom_set(path);
       fingerprints.push_back({{"folder", path}, {"fingerprint", phantom_set_fingerprint(path)}});
       for (const TruthRow& row : set.rows())

@@ -147,11 +147,27 @@ void check_predictions_belong_to(const scoring::PredictionsTable& predictions, c
                   "came from");
 }
 
+// A folder frugal predict was killed in holds its maps/ (and perhaps the table) but no manifest,
+// which predict writes last: refuse it as unfinished rather than score part of it or say only
+// that the table is missing. A table alone, from another method, needs no manifest.
+void refuse_unfinished_predict_folder(const std::string& predictions_file) {
+  namespace fs = std::filesystem;
+  const fs::path file(predictions_file);
+  const fs::path folder = file.parent_path();
+  std::error_code ignored;
+  if (folder.empty() || !fs::is_directory(folder, ignored) || fs::exists(folder / "manifest.json", ignored)) return;
+  const bool predict_folder = fs::is_directory(folder / "maps", ignored) ||
+                              (file.filename() == "predictions.csv" && !fs::exists(file, ignored));
+  if (predict_folder)
+    read_folder_manifest(folder.string(), "predictions", "the folder frugal predict wrote, or a table alone");
+}
+
 void run_score(ScoreArguments& arguments) {
   if (!arguments.rater_file.empty()) arguments.options.grading = read_rater_file(arguments.rater_file).grading;
   if (const std::string error = arguments.options.validate(); !error.empty()) throw UserError(error);
   if (!arguments.json_file.empty())
     require_writable_output(arguments.json_file, OutputKind::file, "a new or regular file for the JSON report");
+  refuse_unfinished_predict_folder(arguments.predictions);
   const scoring::PredictionsTable predictions = scoring::read_predictions_table(arguments.predictions);
   read_folder_manifest(arguments.phantoms, "phantom_set", "a phantom set folder (frugal phantoms)");
   const PhantomSetIndex truth = read_phantom_set(arguments.phantoms);
