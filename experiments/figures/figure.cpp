@@ -256,9 +256,26 @@ void draw_bands(plstream& pls, const Figure& figure, const Layout& layout) {
   }
 }
 
+// Which horizontal lines' labels go at the right end: a line within 6% of the plot's height of the
+// line below it whose label sits on the left would print over that label, so it takes the other side.
+std::vector<bool> labels_on_the_right(const Figure& figure, const Extent& w) {
+  std::vector<std::size_t> order;
+  for (std::size_t i = 0; i < figure.lines.size(); ++i)
+    if (figure.lines[i].horizontal && finite(figure.lines[i].at)) order.push_back(i);
+  std::sort(order.begin(), order.end(), [&](std::size_t a, std::size_t b) { return figure.lines[a].at < figure.lines[b].at; });
+  std::vector<bool> right(figure.lines.size(), false);
+  for (std::size_t k = 1; k < order.size(); ++k) {
+    const bool close = figure.lines[order[k]].at - figure.lines[order[k - 1]].at < 0.06 * (w.y1 - w.y0);
+    right[order[k]] = close && !right[order[k - 1]];
+  }
+  return right;
+}
+
 void draw_reference_lines(plstream& pls, const Figure& figure, const Layout& layout) {
   const Extent& w = layout.window;
-  for (const ReferenceLine& line : figure.lines) {  // text direction in world units: any axis scale
+  const std::vector<bool> right = labels_on_the_right(figure, w);
+  for (std::size_t i = 0; i < figure.lines.size(); ++i) {  // text direction in world units: any axis scale
+    const ReferenceLine& line = figure.lines[i];
     if (!finite(line.at)) continue;
     pls.col0(kReferenceGrey);
     pls.width(1.5);
@@ -267,7 +284,8 @@ void draw_reference_lines(plstream& pls, const Figure& figure, const Layout& lay
     if (line.horizontal) {
       pls.join(w.x0, line.at, w.x1, line.at);
       pls.lsty(1);
-      pls.ptex(w.x0 + 0.02 * (w.x1 - w.x0), line.at + 0.015 * (w.y1 - w.y0), w.x1 - w.x0, 0.0, 0.0, label.c_str());
+      const double x = right[i] ? w.x1 - 0.02 * (w.x1 - w.x0) : w.x0 + 0.02 * (w.x1 - w.x0);
+      pls.ptex(x, line.at + 0.015 * (w.y1 - w.y0), w.x1 - w.x0, 0.0, right[i] ? 1.0 : 0.0, label.c_str());
     } else {
       const double x = x_of(figure, line.at);
       pls.join(x, w.y0, x, w.y1);

@@ -18,6 +18,7 @@
 #include "experiments/store/results_store.h"
 #include "experiments/study/study_summary.h"
 #include "frugal_version.h"
+#include "phantoms/csv_table.h"
 #include "phantoms/regular_file.h"
 #include "phantoms/text_format.h"
 #include "phantoms/user_error.h"
@@ -264,22 +265,41 @@ void example_panels(const std::vector<store::CellRecord>& cells, const plan::Pla
         chosen = &cell;
     }
     if (!chosen) continue;
-    std::vector<figures::Tile> tiles;
+    std::vector<const store::ExampleMap*> shown;
     for (const std::string& role : order)
       for (const store::ExampleMap& map : chosen->example_maps)
-        if (map.role == role)
-          tiles.push_back({map.caption, map.width, map.height, map.pixels,
-                           map.scale == "probability" ? figures::Tile::Scale::probability : figures::Tile::Scale::grey_auto});
+        if (map.role == role) shown.push_back(&map);
+    std::vector<figures::Tile> tiles;
+    for (const store::ExampleMap* map : shown)
+      tiles.push_back({map->caption, map->width, map->height, map->pixels,
+                       map->scale == "probability" ? figures::Tile::Scale::probability : figures::Tile::Scale::grey_auto});
     const std::string path = (fs::path(folder) / ("example-" + stem(arm.plan + "-" + arm.strategy) + ".png")).string();
     figures::write_panel_png(tiles, path);
     files.push_back(path);
+    // The panel's numbers beside it, one row per pixel, as every other figure has its CSV.
+    const std::string csv = (fs::path(path).replace_extension(".csv")).string();
+    WholeFile table(csv);
+    table.write(std::string("# frugal ") + kVersion + ", example panel of cell " + chosen->key + "\n");
+    table.write("tile,role,subject,caption,scale,x,y,value\n");
+    for (std::size_t t = 0; t < shown.size(); ++t) {
+      const store::ExampleMap& map = *shown[t];
+      const std::string prefix = std::to_string(t) + "," + map.role + "," + std::to_string(map.subject) + "," +
+                                 csv_field(map.caption) + "," + map.scale + ",";
+      for (int y = 0; y < map.height; ++y)
+        for (int x = 0; x < map.width; ++x)
+          table.write(prefix + std::to_string(x) + "," + std::to_string(y) + "," +
+                      exact_decimal(map.pixels[static_cast<std::size_t>(y * map.width + x)]) + "\n");
+    }
+    table.commit();
+    files.push_back(csv);
     const std::string budget = arm.labelled ? ", " + format_number(chosen->budget) + " " + chosen->budget_unit + " budget" : "";
     refs.push_back({"Example: " + arm.plan + " / " + arm.strategy + budget,
                     "Repeat " + std::to_string(chosen->repeat) + ": the first held-out phantom with a lesion on its "
                     "slice, its exact lesion mask and the model's map" +
                         std::string(arm.labelled ? ", then the first label the cell bought, on its own training image" : "") +
                         ". Probabilities in the cividis colour map (0 to 1); images and other maps in grey, stretched "
-                        "from their 1st to 99th percentile.",
+                        "from their 1st to 99th percentile. Every pixel's value is in figures/" +
+                        fs::path(path).stem().string() + ".csv.",
                     "", path, ""});
   }
 }

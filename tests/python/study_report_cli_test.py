@@ -94,6 +94,18 @@ class StudyReport(unittest.TestCase):
             self.assertGreater(height, TILE, panel)
             self.assertIn(f"Example: {plan} / {strategy}", self.html)
         self.assertEqual(len(re.findall(r'src="data:image/png;base64,', self.html)), 3)
+        # The panel's CSV holds exactly the stored pixels of the cell it shows (float32 read back).
+        rows = frugal_testing.read_table(os.path.join(self.out, "figures", "example-outlines-mask.csv"))
+        with sqlite3.connect(f"file:{self.store}?mode=ro", uri=True) as db:
+            stored = db.execute("SELECT m.role, m.width, m.pixels FROM example_maps m JOIN cells c ON c.key = m.cell_key "
+                                "WHERE c.plan = 'outlines' AND c.repeat = 0 ORDER BY c.budget DESC, m.rowid "
+                                "LIMIT 5").fetchall()
+        for role, width, blob in stored:
+            pixels = struct.unpack(f"<{len(blob) // 4}f", blob)
+            values = [float(r["value"]) for r in rows if r["role"] == role]
+            self.assertEqual(len(values), len(pixels), role)
+            for row in (r for r in rows if r["role"] == role):
+                self.assertEqual(float(row["value"]), pixels[int(row["y"]) * width + int(row["x"])], role)
         self.assertNotIn("holds no example pictures", self.html)
 
     def test_the_report_renders_offline_in_chromium(self):
