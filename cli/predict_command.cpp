@@ -6,6 +6,7 @@
 #include <algorithm>
 #include <chrono>
 #include <cstdio>
+#include <utility>
 #include <filesystem>
 #include <map>
 #include <memory>
@@ -142,6 +143,8 @@ void run_predict(const PredictArguments& arguments) {
   // Batches bound the memory of a large set; predictions do not depend on the batch size.
   constexpr std::size_t kChunk = 64;
   int maps_written = 0;
+  int far_intensities = 0;  // images whose intensities are far from the training images'
+  std::pair<std::string, learn::IntensityShift> first_far;
   for (std::size_t first = 0; first < inputs.size(); first += kChunk) {
     const std::size_t last = std::min(inputs.size(), first + kChunk);
     std::vector<FloatImage> images;
@@ -161,6 +164,8 @@ void run_predict(const PredictArguments& arguments) {
       throw;
     }
     for (std::size_t i = first; i < last; ++i) {
+      const learn::IntensityShift shift = learn::intensity_shift(model, images[i - first]);
+      if (shift.far && far_intensities++ == 0) first_far = {inputs[i].path, shift};
       const learn::Prediction& prediction = predictions[i - first];
       scoring::PredictionRow row;
       row.subject = inputs[i].subject;
@@ -196,12 +201,22 @@ void run_predict(const PredictArguments& arguments) {
   manifest["rows"] = inputs.size();
   manifest["maps"] = maps_written;
   manifest["map_kind"] = scoring::to_string(map_kind);
+  manifest["images_with_far_intensities"] = far_intensities;  // learn::intensity_shift
   manifest["files"] = {{"predictions", "predictions.csv"}, {"maps", maps_written > 0 ? "maps/" : ""}};
   manifest["caution"] = "Predictions of a model trained on synthetic phantoms; not for clinical use.";
   WholeFile manifest_file(root / "manifest.json");
   manifest_file.write(manifest.dump(2) + "\n");
   manifest_file.commit();
 
+  if (far_intensities > 0) {
+    const learn::IntensityShift& shift = first_far.second;
+    std::fprintf(stderr,
+                 "frugal: warning: %d of %zu images have intensities far from those %s was trained on (first: %s, "
+                 "mean %.3g training SDs away, spread %.3g times theirs); predictions on them are extrapolations: "
+                 "check the images' units and modality\n",
+                 far_intensities, inputs.size(), arguments.model.c_str(), first_far.first.c_str(), shift.mean_offset_sd,
+                 shift.spread_ratio);
+  }
   const double seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
   std::printf("predicted %zu images with %s (%s) in %.2f s; wrote %s/predictions.csv and %d maps\n", inputs.size(),
               learn::to_string(strategy).c_str(), arguments.model.c_str(), seconds, arguments.out.c_str(),

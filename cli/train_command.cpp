@@ -20,6 +20,7 @@
 #include "corruptors/label_set_reader.h"
 #include "corruptors/rater_yaml.h"
 #include "experiments/learn/learner.h"
+#include "experiments/learn/memory_estimate.h"
 #include "experiments/learn/train_options_json.h"
 #include "frugal_version.h"
 #include "phantoms/folder_manifest.h"
@@ -269,6 +270,8 @@ void run_train(TrainArguments& arguments) {
                         {"validation_loss", summary.validation_loss},
                         {"seconds", summary.seconds},
                         {"images_per_second", summary.images_per_second}};
+  if (!classical && options.network_file.empty())
+    sidecar["summary"]["estimated_memory_bytes"] = learn::training_memory_bytes(training.shape(), options, training.size());
   sidecar["caution"] = "Trained on synthetic phantoms with simulated labels; not for clinical use.";
   WholeFile sidecar_file(arguments.out + ".json");
   sidecar_file.write(sidecar.dump(2) + "\n");

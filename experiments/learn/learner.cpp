@@ -1,6 +1,7 @@
 // Training: the loop every strategy shares. Strategies differ only in their samples and losses
 // (strategy_losses.cpp); networks only behind internal::Network.
 #include "experiments/learn/learner.h"
+#include "experiments/learn/memory_estimate.h"
 
 #include <torch/torch.h>
 
@@ -224,6 +225,7 @@ void check_trainable(const TrainingSet& set, const TrainOptions& options) {
     throw UserError("train.depth = " + std::to_string(options.depth) + ": image sides " + std::to_string(shape.x) +
                     "x" + std::to_string(shape.y) + (shape.dims() == 3 ? "x" + std::to_string(shape.z) : "") +
                     " must divide by " + std::to_string(divisor) + "; use a smaller depth or another image size");
+  check_training_memory(shape, options, set.size());
   for (std::size_t i = 0; i < set.size(); ++i) {
     const Label& label = set.label(i);
     if (label.kind != LabelKind::grade) continue;

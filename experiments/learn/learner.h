@@ -233,4 +233,17 @@ struct Prediction {
 Prediction predict(const TrainedModel& model, const FloatImage& image, int threads = 2);
 std::vector<Prediction> predict(const TrainedModel& model, const std::vector<FloatImage>& images, int threads = 2);
 
+// How far an image's intensities lie from those the network was trained on: its mean's distance
+// from the training images' mean, and its standard deviation's ratio to theirs, both in units of
+// the training images' SD (over all voxels, as training standardised them). `far` when the mean
+// is more than 3 SD away or the spread differs more than 4-fold: the prediction is then an
+// extrapolation (an image stored in other units, another modality). Never far for classical
+// strategies, which have no trained network.
+struct IntensityShift {
+  double mean_offset_sd = 0.0;
+  double spread_ratio = 1.0;
+  bool far = false;
+};
+IntensityShift intensity_shift(const TrainedModel& model, const FloatImage& image);
+
 }  // namespace frugal::learn

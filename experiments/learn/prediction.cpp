@@ -135,6 +135,24 @@ std::vector<Prediction> predict(const TrainedModel& trained, const std::vector<F
   return predictions;
 }
 
+IntensityShift intensity_shift(const TrainedModel& model, const FloatImage& image) {
+  IntensityShift shift;
+  const TrainedModel::Impl& impl = model.impl();
+  if (!impl.network || image.empty()) return shift;
+  double sum = 0.0, sum_squares = 0.0;
+  for (float value : image.voxels()) {
+    sum += value;
+    sum_squares += static_cast<double>(value) * value;
+  }
+  const double voxels = static_cast<double>(image.size());
+  const double mean = sum / voxels;
+  const double sd = std::sqrt(std::max(0.0, sum_squares / voxels - mean * mean));
+  shift.mean_offset_sd = (mean - impl.input_mean) / impl.input_scale;
+  shift.spread_ratio = sd / impl.input_scale;
+  shift.far = !(std::abs(shift.mean_offset_sd) <= 3.0) || !(shift.spread_ratio <= 4.0 && shift.spread_ratio >= 0.25);
+  return shift;
+}
+
 Prediction predict(const TrainedModel& model, const FloatImage& image, int threads) {
   return std::move(predict(model, std::vector<FloatImage>{image}, threads).front());
 }

@@ -188,6 +188,23 @@ class TrainPredictScoreTest(unittest.TestCase):
         expected = 1.0 if truth_voxels + predicted_voxels == 0 else 2 * intersection / (truth_voxels + predicted_voxels)
         self.assertAlmostEqual(maps["pooled_dice"], expected, places=9)
 
+    def test_an_image_in_other_units_is_predicted_with_a_warning(self):
+        # A test image stored as integers x 1000 (another tool's export), beside an untouched copy:
+        # the first is far from the training intensities, the second is not (learner.h's rule:
+        # mean more than 3 training SDs away, or spread more than 4-fold different).
+        source = path("test", "images", "subject_001000.nii.gz")
+        image = nib.load(source)
+        scaled = nib.Nifti1Image(np.round(np.asarray(image.dataobj) * 1000).astype(np.int16), image.affine)
+        nib.save(scaled, path("scaled_x1000.nii.gz"))
+        result = run("predict", path("count-map.pt"), "--images", path("scaled_x1000.nii.gz"), source, "--out",
+                     path("predicted-scaled"))
+        self.assertIn("warning: 1 of 2 images have intensities far from those", result.stderr)
+        self.assertIn("scaled_x1000.nii.gz", result.stderr)
+        with open(path("predicted-scaled", "manifest.json")) as manifest:
+            self.assertEqual(json.load(manifest)["images_with_far_intensities"], 1)
+        untouched = run("predict", path("count-map.pt"), "--images", source, "--out", path("predicted-untouched"))
+        self.assertNotIn("warning", untouched.stderr)
+
     def test_a_users_own_table_is_scored(self):
         # A method in another language writes only subject and count, in its own order, plus a column
         # frugal does not know.
