@@ -32,7 +32,8 @@ for target in "${targets[@]}"; do
   mkdir -p "build-fuzz/corpus/$target"
   echo "fuzz: $target for ${seconds} s"
   # -timeout: one input taking 10 s counts as a hang; -rss_limit_mb: 2 GB as running out of memory.
-  "build-fuzz/fuzz/$target" -max_total_time="$seconds" -timeout=10 -rss_limit_mb=2048 -print_final_stats=1 \
+  # -seed: the same inputs every run (FRUGAL_FUZZ_SEED=0 lets libFuzzer pick one).
+  "build-fuzz/fuzz/$target" -max_total_time="$seconds" -seed="${FRUGAL_FUZZ_SEED:-1}" -timeout=10 -rss_limit_mb=2048 -print_final_stats=1 \
     -artifact_prefix="build-fuzz/artifacts/$target-" "build-fuzz/corpus/$target" "fuzz/corpus/$target"
 done
 echo "fuzz: ${#targets[@]} targets ran ${seconds} s each without a crash"
