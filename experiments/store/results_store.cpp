@@ -163,6 +163,11 @@ class Connection {
       case SQLITE_CORRUPT:
         throw UserError(path_ + ": the results store is damaged (" + message +
                         "); restore it from a copy or run the study into a new --out file");
+      case SQLITE_FULL:
+      case SQLITE_IOERR:
+        // SQLite reports a full disk as SQLITE_FULL, or as an I/O error when its WAL index cannot grow.
+        throw UserError(path_ + ": " + doing + ": " + message +
+                        " (the disk is full or failing); free space and run again: finished cells are kept");
       case SQLITE_BUSY:
         throw UserError(path_ + ": " + doing + ": " + message + " (another process held it for more than " +
                         std::to_string(kBusyTimeoutMilliseconds / 1000) + " s)");
