@@ -1,12 +1,15 @@
 // Checkpoints: a trained model written whole or not at all, and read back exactly. The network's
 // tensors go where its kind keeps them (a torch archive for frugal's U-net, the module itself for
 // a TorchScript network); everything else is one JSON record, "frugal.meta".
+#include <openssl/sha.h>
 #include <torch/script.h>
 #include <torch/torch.h>
 
 #include <cmath>
 #include <exception>
 #include <filesystem>
+#include <fstream>
+#include <iterator>
 #include <limits>
 #include <sstream>
 #include <nlohmann/json.hpp>
@@ -16,6 +19,7 @@
 
 #include "experiments/learn/learner.h"
 #include "experiments/learn/model_internal.h"
+#include "phantoms/regular_file.h"
 #include "phantoms/user_error.h"
 #include "phantoms/whole_file.h"
 
@@ -24,7 +28,7 @@ namespace {
 
 using nlohmann::json;
 
-constexpr int kCheckpointVersion = 2;
+constexpr int kCheckpointVersion = 3;  // 3: the SHA-256 trailer
 
 // JSON has no infinities: an unbounded field limit is written as null.
 json bound_to_json(double value) { return std::isinf(value) ? json(nullptr) : json(value); }
@@ -125,10 +129,47 @@ void read_description(const json& meta, TrainedModel::Impl& model) {
 }
 
 // The metadata of a TorchScript network's checkpoint (its extra file), or "" for other files.
-std::string scripted_meta(const std::string& path) {
+std::string scripted_meta(const std::string& bytes) {
   torch::jit::ExtraFilesMap extra{{internal::kScriptedMetaFile, ""}};
-  torch::jit::load(path, c10::nullopt, extra);
+  std::istringstream stream(bytes, std::ios::binary);
+  torch::jit::load(stream, c10::nullopt, extra);
   return extra[internal::kScriptedMetaFile];
+}
+
+// A checkpoint ends with a trailer: kTrailerMagic and the SHA-256 (FIPS 180-4) of every byte
+// before it, in hex. libtorch's own readers crash on some damaged archives (fuzz/checkpoint_fuzz),
+// so a copy cut short or altered is refused here before any of its bytes reach them.
+constexpr char kTrailerMagic[] = "\nfrugal-checkpoint-sha256:";
+constexpr std::size_t kTrailerSize = sizeof kTrailerMagic - 1 + 64;
+
+std::string sha256_hex(const std::string& bytes) {
+  unsigned char digest[SHA256_DIGEST_LENGTH];
+  SHA256(reinterpret_cast<const unsigned char*>(bytes.data()), bytes.size(), digest);
+  static const char* hex = "0123456789abcdef";
+  std::string text;
+  for (unsigned char byte : digest) {
+    text += hex[byte >> 4];
+    text += hex[byte & 15];
+  }
+  return text;
+}
+
+// The checkpoint's archive bytes, once its trailer vouches for them.
+std::string read_verified_checkpoint(const std::string& path) {
+  require_regular_file(path, "a frugal checkpoint (frugal train --out)");
+  std::ifstream stream(path, std::ios::binary);
+  std::string bytes((std::istreambuf_iterator<char>(stream)), std::istreambuf_iterator<char>());
+  if (!stream.good() && !stream.eof()) throw UserError(path + ": cannot read the checkpoint");
+  const std::string magic(kTrailerMagic, sizeof kTrailerMagic - 1);
+  if (bytes.size() < kTrailerSize || bytes.compare(bytes.size() - kTrailerSize, magic.size(), magic) != 0)
+    throw UserError(path + ": not a frugal checkpoint of this version, or cut short (no check sum at its end); "
+                    "allowed: a file frugal train wrote (train the model again)");
+  const std::string stored = bytes.substr(bytes.size() - 64);
+  bytes.resize(bytes.size() - kTrailerSize);
+  if (sha256_hex(bytes) != stored)
+    throw UserError(path + ": the checkpoint is damaged (its SHA-256 check sum does not match its content: an "
+                    "altered or badly copied file); allowed: the file as frugal train wrote it");
+  return bytes;
 }
 
 }  // namespace
@@ -160,22 +201,26 @@ void TrainedModel::save(const std::string& path) const {
   } catch (const c10::Error& error) {
     throw UserError(path + ": cannot serialise the checkpoint: " + error.what_without_backtrace());
   }
+  const std::string archive = bytes.str();
   WholeFile file(path);
-  file.write(bytes.str());
+  file.write(archive);
+  file.write(kTrailerMagic);
+  file.write(sha256_hex(archive));
   file.commit();
 }
 
 TrainedModel TrainedModel::load(const std::string& path) {
-  if (!std::filesystem::is_regular_file(path)) throw UserError(path + ": no such checkpoint file");
+  if (!std::filesystem::exists(path)) throw UserError(path + ": no such checkpoint file");
+  const std::string bytes = read_verified_checkpoint(path);
   auto model = std::make_unique<Impl>();
   try {
-    const std::string scripted = scripted_meta(path);
+    const std::string scripted = scripted_meta(bytes);
     torch::serialize::InputArchive archive;
     json meta;
     if (!scripted.empty()) {
       meta = json::parse(scripted);
     } else {
-      archive.load_from(path);
+      archive.load_from(bytes.data(), bytes.size());
       torch::Tensor text;
       if (!archive.try_read("frugal.meta", text) || text.dim() != 1 || text.scalar_type() != torch::kUInt8)
         throw UserError(path + ": not a frugal checkpoint (no frugal.meta record)");
@@ -188,7 +233,7 @@ TrainedModel TrainedModel::load(const std::string& path) {
                       std::to_string(kCheckpointVersion) + " this frugal reads; train the model again");
     read_description(meta, *model);
     if (!scripted.empty())
-      model->network = internal::load_scripted_network(path, model->shape);
+      model->network = internal::load_scripted_network(path, model->shape, &bytes);
     else if (!is_classical(model->strategy))
       model->network = internal::load_unet_network(archive, model->shape.dims(), model->width, model->depth,
                                                    model->normalization, model->channels_last);

@@ -47,8 +47,10 @@ std::unique_ptr<Network> make_unet_network(int dims, int width, int depth, Norma
 
 // A TorchScript module read from `path` (torch.jit.script or torch.jit.trace output): it must map
 // a float32 batch [N, 1, spatial...] to a map of the same shape. Throws UserError naming the file
-// when it cannot be read or does not map a probe batch of `shape` to the same shape.
-std::unique_ptr<Network> load_scripted_network(const std::string& path, const Shape& shape);
+// when it cannot be read or does not map a probe batch of `shape` to the same shape. With `bytes`,
+// the module is read from them (a checkpoint already read and verified) and `path` only names it.
+std::unique_ptr<Network> load_scripted_network(const std::string& path, const Shape& shape,
+                                               const std::string* bytes = nullptr);
 
 // frugal's own checkpoint archive: the module's tensors (none for the classical strategies, which
 // pass null) and the metadata JSON as the uint8 tensor "frugal.meta".

@@ -152,13 +152,18 @@ void to_float32(torch::jit::Module& module) {
 
 }  // namespace
 
-std::unique_ptr<Network> load_scripted_network(const std::string& path, const Shape& shape) {
+std::unique_ptr<Network> load_scripted_network(const std::string& path, const Shape& shape, const std::string* bytes) {
   std::error_code error_code;
-  if (!std::filesystem::is_regular_file(path, error_code))
+  if (!bytes && !std::filesystem::is_regular_file(path, error_code))
     throw UserError(path + ": no such file; network_file names a TorchScript module: " + kHowToExport);
   torch::jit::Module module;
   try {
-    module = torch::jit::load(path, torch::Device(torch::kCPU));
+    if (bytes) {
+      std::istringstream stream(*bytes, std::ios::binary);
+      module = torch::jit::load(stream, torch::Device(torch::kCPU));
+    } else {
+      module = torch::jit::load(path, torch::Device(torch::kCPU));
+    }
   } catch (const c10::Error& error) {
     throw UserError(path + ": not a TorchScript file (" + error.what_without_backtrace() + "): " + kHowToExport);
   } catch (const std::exception& error) {  // a readable archive whose code does not compile

@@ -9,6 +9,8 @@
 #include <cstdio>
 #include <filesystem>
 #include <fstream>
+#include <iterator>
+#include <string>
 #include <numeric>
 #include <set>
 #include <utility>
@@ -281,6 +283,38 @@ TEST_F(TinyProblem, BadCheckpointIsAUserError) {
 TEST(TrainedModelLoad, DamagedPickleIsAUserError) {
   EXPECT_THROW(TrainedModel::load(std::string(FRUGAL_SOURCE_DIR) + "/fuzz/corpus/checkpoint_fuzz/damaged-pickle.pt"),
                UserError);
+}
+
+// Every byte of a checkpoint is covered by its SHA-256 trailer: one flipped byte anywhere, or a
+// copy cut short, is refused with its reason before libtorch reads any of it (common practice, no
+// source).
+TEST_F(TinyProblem, AnAlteredOrCutCheckpointIsRefusedByItsCheckSum) {
+  const TrainResult result = train(training_set(*subjects_, *labels_), tiny_options());
+  const auto path = std::filesystem::temp_directory_path() / "frugal_learner_test_altered.pt";
+  result.model.save(path.string());
+  std::string bytes;
+  {
+    std::ifstream in(path, std::ios::binary);
+    bytes.assign(std::istreambuf_iterator<char>(in), std::istreambuf_iterator<char>());
+  }
+  const auto message_of = [&](const std::string& content) {
+    { std::ofstream(path, std::ios::binary) << content; }
+    try {
+      TrainedModel::load(path.string());
+    } catch (const UserError& error) {
+      return std::string(error.what());
+    }
+    return std::string("loaded");
+  };
+  EXPECT_EQ(message_of(bytes), "loaded");
+  for (std::size_t at : {std::size_t{0}, bytes.size() / 3, bytes.size() / 2, bytes.size() - 70, bytes.size() - 1}) {
+    std::string altered = bytes;
+    altered[at] = static_cast<char>(altered[at] ^ 0x10);
+    const std::string message = message_of(altered);
+    EXPECT_TRUE(message.find("check sum") != std::string::npos) << "byte " << at << ": " << message;
+  }
+  EXPECT_NE(message_of(bytes.substr(0, bytes.size() / 2)).find("cut short"), std::string::npos);
+  std::filesystem::remove(path);
 }
 
 // That truth never reaches training is checked through the command line, which builds the training
