@@ -1,13 +1,12 @@
 #include "corruptors/rater.h"
 
-#include "phantoms/text_format.h"
-
 #include <algorithm>
 #include <cmath>
 #include <cstdio>
 #include <utility>
 
 #include "phantoms/image.h"
+#include "phantoms/text_format.h"
 
 namespace frugal {
 
@@ -163,6 +162,8 @@ std::string PanelOptions::validate() const {
 
 std::string RaterOptions::validate() const {
   if (name.empty()) return "name is empty; give the rater model a name";
+  if (!is_printable_name(name))
+    return "name holds only blanks or control characters; give the rater model a printable name";
   FirstError first;
   first(detection.validate());
   first(counting.validate());

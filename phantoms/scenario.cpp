@@ -1,10 +1,10 @@
 #include "phantoms/scenario.h"
 
-#include "phantoms/text_format.h"
-
 #include <cmath>
 #include <cstdio>
 #include <sstream>
+
+#include "phantoms/text_format.h"
 
 namespace frugal {
 
@@ -126,6 +126,8 @@ std::string validate_confounder(const ScenarioOptions& o) {
 
 std::string ScenarioOptions::validate() const {
   if (name.empty()) return "name is empty; give the scenario a name";
+  if (!is_printable_name(name))
+    return "name holds only blanks or control characters; give the scenario a printable name";
   if (std::string error = validate_geometry(geometry); !error.empty()) return error;
   if (!(psf_fwhm_mm >= 0.0 && psf_fwhm_mm <= 20.0))
     return "psf_fwhm_mm is " + format_number(psf_fwhm_mm) + "; allowed 0..20 mm";

@@ -20,4 +20,14 @@ std::string exact_decimal(double value) {
   return text;
 }
 
+bool is_printable_name(const std::string& name) {
+  bool visible = false;
+  for (char c : name) {
+    const auto byte = static_cast<unsigned char>(c);
+    if (byte < 0x20 || byte == 0x7f) return false;
+    visible = visible || byte != ' ';
+  }
+  return visible;
+}
+
 }  // namespace frugal

@@ -207,7 +207,8 @@ StudyOptions read_study(const YAML::Node& root, const std::string& file, const s
   study.file = file;
   fields.require("name");
   fields.read("name", study.name);
-  if (study.name.empty()) fields.fail("name", "is empty; allowed: any non-empty text naming the study");
+  if (!is_printable_name(study.name))
+    fields.fail("name", "is empty, blank or holds control characters; allowed: printable text naming the study");
   fields.require("scenario");
   study.scenario = file_or_inline<ScenarioOptions>(
       fields, "scenario", folder, study.scenario_file, [](const std::string& path) { return read_scenario_file(path); },

@@ -6,6 +6,7 @@
 #include <string>
 
 #include "phantoms/user_error.h"
+#include "phantoms/yaml_fields.h"
 
 namespace frugal {
 namespace {
@@ -115,6 +116,24 @@ TEST(RaterFile, ResolvedYamlRoundTrips) {
   EXPECT_EQ(again.cost.outline_per_boundary_mm_s, 11.0);
   EXPECT_EQ(again.region_grow.connectivity, 8);
   EXPECT_EQ(again.grading.bin_edges, o.grading.bin_edges);
+}
+
+// Found by fuzz/rater_yaml_fuzz: a name that is a lone carriage return was read, and the resolved
+// YAML written of it did not read back. Blank names and control characters are refused, with the
+// file and key; any printable name round-trips (common practice, no source).
+TEST(RaterFile, AControlCharacterOrBlankNameIsRefusedAndAPrintableOneRoundTrips) {
+  for (const std::string& text : {std::string("name: \r"), std::string("name: \"a\\tb\""), std::string("name: \"  \"")}) {
+    try {
+      read_rater(parse_yaml_text(text, "fuzz.yaml"), "fuzz.yaml");
+      ADD_FAILURE() << "accepted " << text;
+    } catch (const UserError& error) {
+      EXPECT_NE(std::string(error.what()).find("fuzz.yaml"), std::string::npos) << error.what();
+      EXPECT_NE(std::string(error.what()).find("name"), std::string::npos) << error.what();
+    }
+  }
+  const RaterOptions read = read_rater(parse_yaml_text("name: \"reader: 'A' #1, ünïcode\"", "ok.yaml"), "ok.yaml");
+  const RaterOptions again = read_rater(parse_yaml_text(rater_to_yaml(read), "resolved.yaml"), "resolved.yaml");
+  EXPECT_EQ(again.name, read.name);
 }
 
 }  // namespace
