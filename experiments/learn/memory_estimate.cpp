@@ -7,6 +7,7 @@
 #include <cstdio>
 #include <string>
 
+#include "phantoms/text_format.h"
 #include "phantoms/user_error.h"
 
 namespace frugal::learn {
@@ -22,6 +23,11 @@ std::string gigabytes(double bytes) {
   char buffer[32];
   std::snprintf(buffer, sizeof buffer, "%.1f GB", bytes / 1e9);
   return buffer;
+}
+
+// A batch holds at most every labelled image.
+double batch_of(const TrainOptions& options, std::size_t images) {
+  return static_cast<double>(std::min<std::size_t>(static_cast<std::size_t>(options.batch_size), images));
 }
 
 }  // namespace
@@ -42,8 +48,7 @@ double training_memory_bytes(const Shape& shape, const TrainOptions& options, st
   const double per_float = (dims == 2 ? kFloatsPerActivation2d : kFloatsPerActivation3d) * 4.0;
   const double passes = options.consistency_weight > 0.0 ? 2.0 : 1.0;
   // Parameters: weights, gradients and Adam's two moments, 4 bytes each.
-  const double batch = static_cast<double>(std::min<std::size_t>(static_cast<std::size_t>(options.batch_size), images));
-  return kProcessBytes + passes * batch * activations * per_float + 16.0 * parameters;
+  return kProcessBytes + passes * batch_of(options, images) * activations * per_float + 16.0 * parameters;
 }
 
 double physical_memory_bytes() {
@@ -59,7 +64,7 @@ void check_training_memory(const Shape& shape, const TrainOptions& options, std:
   const double machine = physical_memory_bytes();
   if (machine <= 0.0 || needed <= kFitShare * machine) return;
   throw UserError("training needs about " + gigabytes(needed) + " of memory (batch size " +
-                  std::to_string(std::min<std::size_t>(static_cast<std::size_t>(options.batch_size), images)) + ", width " + std::to_string(options.width) + ", depth " +
+                  format_number(batch_of(options, images)) + ", width " + std::to_string(options.width) + ", depth " +
                   std::to_string(options.depth) + ", images of " + std::to_string(shape.x) + " x " +
                   std::to_string(shape.y) + (shape.z > 1 ? " x " + std::to_string(shape.z) : std::string()) +
                   " voxels), more than 90% of this machine's " + gigabytes(machine) +

@@ -154,12 +154,6 @@ double rounded_grade_kappa(const std::vector<double>& predicted, const std::vect
   }
 }
 
-// Which maps a strategy's predictions hold: lesion probabilities are scored for overlap.
-bool has_probability_map(learn::Strategy strategy) {
-  return strategy == learn::Strategy::threshold ||
-         (learn::is_map_strategy(strategy) && strategy != learn::Strategy::count_map);
-}
-
 // The true-grade bins: those of the rater that graded, else those the training used.
 GradingOptions grading_of(const CellSpec& spec) {
   for (const LabelPlan* plan : {&spec.plan, &spec.strong, &spec.weak})
@@ -200,7 +194,7 @@ void score_set(CellResult& result, const CellSpec& spec, const std::string& set_
     if (quantity == "grade") score.weighted_kappa = rounded_grade_kappa(predicted, truth, grading, score.notes);
     add_quantity_metrics(result, set_name, score);
   }
-  if (!has_probability_map(spec.train.strategy)) return;
+  if (!map_is_probability(spec.train.strategy)) return;
   scoring::ScoreOptions options;
   options.grading = grading;
   scoring::MapScoreAccumulator maps(options);

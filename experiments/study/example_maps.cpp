@@ -30,12 +30,6 @@ store::ExampleMap image_map(const Subject& subject, const std::string& role, con
   return map;
 }
 
-// Strategies whose map is a lesion probability (learner.h's prediction rules); the others' maps
-// (a density, a filter response) are shown stretched to their own range.
-bool map_is_probability(learn::Strategy strategy) {
-  return learn::is_map_strategy(strategy) && strategy != learn::Strategy::count_map;
-}
-
 // Whole numbers as such, others to one decimal: a caption under a 192-pixel tile.
 std::string number_text(double value) {
   char buffer[32];
@@ -47,6 +41,11 @@ std::string number_text(double value) {
 std::string lesions_text(int count) { return std::to_string(count) + (count == 1 ? " lesion" : " lesions"); }
 
 }  // namespace
+
+bool map_is_probability(learn::Strategy strategy) {
+  return strategy == learn::Strategy::threshold ||
+         (learn::is_map_strategy(strategy) && strategy != learn::Strategy::count_map);
+}
 
 std::size_t example_subject(const std::vector<const Subject*>& subjects) {
   for (std::size_t i = 0; i < subjects.size(); ++i) {

@@ -79,6 +79,9 @@ TEST(ExampleMaps, ADensityIsShownInGreyAndAScalarStrategyHasNoMapPicture) {
   density.map = subject.image;
   const auto density_maps = test_example_maps(subject, density, learn::Strategy::count_map);
   EXPECT_EQ(role(density_maps, "prediction").scale, "grey");
+  const auto threshold_maps = test_example_maps(subject, density, learn::Strategy::threshold);
+  EXPECT_EQ(role(threshold_maps, "prediction").scale, "probability");  // its 0/1 mask
+  EXPECT_FALSE(map_is_probability(learn::Strategy::line_filter));
   EXPECT_FALSE(has_role(test_example_maps(subject, learn::Prediction{}, learn::Strategy::scalar), "prediction"));
 }
 
