@@ -137,7 +137,8 @@ class BadHeaders : public ::testing::TestWithParam<HeaderPatch> {};
 
 TEST_P(BadHeaders, AreRefusedWithTheFieldAndWhatIsAllowed) {
   const HeaderPatch& p = GetParam();
-  const std::string original = temp_path("header-original.nii");
+  // One file per case: ctest runs the cases in parallel processes.
+  const std::string original = temp_path(std::string("header-original-") + p.name + ".nii");
   write_nifti(ramp({8, 6, 4}), original);
   std::vector<char> bytes = file_bytes(original);
   ASSERT_GT(bytes.size(), 352U);
