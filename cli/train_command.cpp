@@ -16,6 +16,7 @@
 #include <vector>
 
 #include "cli/commands.h"
+#include "cli/option_keys.h"
 #include "cli/progress_bar.h"
 #include "corruptors/label_set_reader.h"
 #include "corruptors/rater_yaml.h"
@@ -25,8 +26,8 @@
 #include "frugal_version.h"
 #include "phantoms/folder_manifest.h"
 #include "phantoms/nifti_io.h"
-#include "phantoms/regular_file.h"
 #include "phantoms/phantom_set_reader.h"
+#include "phantoms/regular_file.h"
 #include "phantoms/user_error.h"
 #include "phantoms/whole_file.h"
 
@@ -48,27 +49,9 @@ struct TrainArguments {
   bool full_precision = false;
   bool no_flips = false;
   learn::TrainOptions options;
+  OptionKeys keys{"train"};                       // which option sets which key, for messages
   std::vector<const CLI::Option*> field_options;  // --field-low, --field-high, --field-drop-border
 };
-
-// learn's messages name keys as a study file would ("train.batch_size = 0: ..."); on the command
-// line the user typed an option, so name that too: "--batch-size = 0: ... (train.batch_size)".
-std::string as_option_message(const std::string& message) {
-  if (message.rfind("train.", 0) != 0) return message;
-  const std::size_t end = message.find_first_of(" :,");
-  std::string key = message.substr(6, end == std::string::npos ? std::string::npos : end - 6);
-  if (key.rfind("line_filter.", 0) == 0) key = "line_" + key.substr(key.rfind('.') + 1);
-  for (const auto& [prefix, replacement] : {std::pair<std::string, std::string>{"augmentation.", ""},
-                                            {"field.", "field_"},
-                                            {"network_file", "network"},
-                                            {"drop_border_connected", "drop_border"}})
-    if (const std::size_t at = key.find(prefix); at != std::string::npos) key.replace(at, prefix.size(), replacement);
-  if (key.rfind("grading", 0) == 0) return message + " (grading bins come from --rater-file or the grade label set)";
-  std::replace(key.begin(), key.end(), '_', '-');
-  std::replace(key.begin(), key.end(), '.', '-');
-  return "--" + key + message.substr(end == std::string::npos ? message.size() : end) + " (" + message.substr(0, end) +
-         ")";
-}
 
 // The field fractions refer to: the command line's when any --field-* option is given (the
 // others keep their whole-image defaults), else the phantom set's family default. Returns
@@ -128,7 +111,7 @@ void run_train(TrainArguments& arguments) {
                             "a new or regular file for the checkpoint (MODEL.pt) and its sidecar (MODEL.pt.json)");
 
   // Checked before any file is read, and again once the grading bins are known.
-  if (const std::string error = options.validate(); !error.empty()) throw UserError(as_option_message(error));
+  if (const std::string error = options.validate(); !error.empty()) throw UserError(arguments.keys.message(error));
   const bool classical = learn::is_classical(options.strategy);
   if (arguments.labels.empty() && !classical)
     throw UserError("--labels is required for strategy " + arguments.strategy +
@@ -168,7 +151,7 @@ void run_train(TrainArguments& arguments) {
       }
   }
   const std::string field_source = choose_field(arguments, phantoms, options.field);
-  if (const std::string error = options.validate(); !error.empty()) throw UserError(as_option_message(error));
+  if (const std::string error = options.validate(); !error.empty()) throw UserError(arguments.keys.message(error));
 
   // One sample per label; each image is read once however many raters labelled it.
   learn::TrainingSet training;
@@ -217,7 +200,9 @@ void run_train(TrainArguments& arguments) {
   try {
     result = learn::train(training, options, on_epoch);
   } catch (const UserError& error) {
-    throw UserError(as_option_message(error.what()));
+    // learn::train names option problems "train.<key>"; other problems (the labels, the images) stay as they are.
+    const std::string what = error.what();
+    throw UserError(what.rfind("train.", 0) == 0 ? arguments.keys.message(what) : what);
   }
   if (!classical) {
     if (last.epoch < last.epochs)
@@ -271,7 +256,8 @@ void run_train(TrainArguments& arguments) {
                         {"seconds", summary.seconds},
                         {"images_per_second", summary.images_per_second}};
   if (!classical && options.network_file.empty())
-    sidecar["summary"]["estimated_memory_bytes"] = learn::training_memory_bytes(training.shape(), options, training.size());
+    sidecar["summary"]["estimated_memory_bytes"] =
+        learn::training_memory_bytes(training.shape(), options, training.size());
   sidecar["caution"] = "Trained on synthetic phantoms with simulated labels; not for clinical use.";
   WholeFile sidecar_file(arguments.out + ".json");
   sidecar_file.write(sidecar.dump(2) + "\n");
@@ -301,6 +287,14 @@ void run_train(TrainArguments& arguments) {
 void add_train_command(CLI::App& app) {
   auto arguments = std::make_shared<TrainArguments>();
   learn::TrainOptions& o = arguments->options;
+  OptionKeys& keys = arguments->keys;
+  keys.name("strategy", "--strategy");
+  keys.name("normalization", "--normalization");
+  keys.name("robust_loss", "--robust-loss");
+  keys.name("bfloat16", "--bfloat16");
+  keys.name("augmentation.flips", "--no-flips");
+  keys.name("field.drop_border_connected", "--field-drop-border");
+  keys.explain("grading", "grading bins come from --rater-file or the grade label set");
   CLI::App* command = app.add_subcommand(
       "train",
       "Train one learning strategy on a phantom set's images and the labels bought for them (label sets from frugal "
@@ -321,93 +315,73 @@ void add_train_command(CLI::App& app) {
       ->required();
   command->add_option("--rater", arguments->rater, "Train on this panel member's labels only (0-based); -1 = all")
       ->capture_default_str();
-  command->add_option("--epochs", o.epochs, "Passes over the training labels")->capture_default_str();
-  command->add_option("--batch-size", o.batch_size, "Images per optimiser step")->capture_default_str();
-  command->add_option("--learning-rate", o.learning_rate, "Adam step size, decayed to 0 on a cosine schedule")
-      ->capture_default_str();
-  command->add_option("--weight-decay", o.weight_decay, "Adam's L2 term")->capture_default_str();
-  command->add_option("--seed", o.seed, "Seed of the split, shuffling, augmentation and initial weights")
-      ->capture_default_str();
-  command->add_option("--threads", o.threads, "Torch threads")->capture_default_str();
-  command->add_option("--width", o.width, "Channels at the finest level of the network (doubled per level)")
-      ->capture_default_str();
-  command->add_option("--depth", o.depth, "Resolution levels; image sides must divide by 2^(depth-1)")
-      ->capture_default_str();
+  keys.add(command, "--epochs", o.epochs, "epochs", "Passes over the training labels");
+  keys.add(command, "--batch-size", o.batch_size, "batch_size", "Images per optimiser step");
+  keys.add(command, "--learning-rate", o.learning_rate, "learning_rate",
+           "Adam step size, decayed to 0 on a cosine schedule");
+  keys.add(command, "--weight-decay", o.weight_decay, "weight_decay", "Adam's L2 term");
+  keys.add(command, "--seed", o.seed, "seed", "Seed of the split, shuffling, augmentation and initial weights");
+  keys.add(command, "--threads", o.threads, "threads", "Torch threads");
+  keys.add(command, "--width", o.width, "width", "Channels at the finest level of the network (doubled per level)");
+  keys.add(command, "--depth", o.depth, "depth", "Resolution levels; image sides must divide by 2^(depth-1)");
   command->add_option("--normalization", arguments->normalization, "batch, instance or none")->capture_default_str();
-  command
-      ->add_option("--validation-fraction", o.validation_fraction,
-                   "Share of the labels held out to choose the best epoch; 0 = keep the last epoch")
-      ->capture_default_str();
-  command->add_option("--patience", o.patience, "Epochs without validation improvement before stopping; 0 = never")
-      ->capture_default_str();
+  keys.add(command, "--validation-fraction", o.validation_fraction, "validation_fraction",
+           "Share of the labels held out to choose the best epoch; 0 = keep the last epoch");
+  keys.add(command, "--patience", o.patience, "patience",
+           "Epochs without validation improvement before stopping; 0 = never");
   command->add_flag("--bfloat16", arguments->bfloat16,
                     "bfloat16 forward pass (the default: 2-3x faster on this class of CPU)");
   command->add_flag("--full-precision", arguments->full_precision,
                     "float32 throughout instead of the bfloat16 forward pass");
   command->add_flag("--no-flips", arguments->no_flips, "Do not mirror training images at random");
-  command->add_option("--rotation-degrees", o.augmentation.rotation_degrees, "Random rotations within +-this angle")
-      ->capture_default_str();
-  command
-      ->add_option("--deformation-mm", o.augmentation.deformation_mm,
-                   "SD of random smooth deformations in mm; 0 = none")
-      ->capture_default_str();
-  command
-      ->add_option("--deformation-spacing-mm", o.augmentation.deformation_spacing_mm,
-                   "Control-point spacing of the deformations in mm (larger = smoother)")
-      ->capture_default_str();
-  command->add_option("--dice-weight", o.dice_weight, "Weight of the soft Dice term of mask losses")
-      ->capture_default_str();
+  keys.add(command, "--rotation-degrees", o.augmentation.rotation_degrees, "augmentation.rotation_degrees",
+           "Random rotations within +-this angle");
+  keys.add(command, "--deformation-mm", o.augmentation.deformation_mm, "augmentation.deformation_mm",
+           "SD of random smooth deformations in mm; 0 = none");
+  keys.add(command, "--deformation-spacing-mm", o.augmentation.deformation_spacing_mm,
+           "augmentation.deformation_spacing_mm",
+           "Control-point spacing of the deformations in mm (larger = smoother)");
+  keys.add(command, "--dice-weight", o.dice_weight, "dice_weight", "Weight of the soft Dice term of mask losses");
   command->add_option("--robust-loss", arguments->robust_loss, "mask-robust's loss: gce, bootstrap or smoothing")
       ->capture_default_str();
-  command->add_option("--gce-q", o.gce_q, "Generalized cross entropy's q in (0, 1]")->capture_default_str();
-  command->add_option("--bootstrap-beta", o.bootstrap_beta, "Hard bootstrapping's weight on the given label")
-      ->capture_default_str();
-  command->add_option("--label-smoothing", o.label_smoothing, "Label smoothing's epsilon in [0, 0.5)")
-      ->capture_default_str();
-  command
-      ->add_option("--background-prior", o.background_prior,
-                   "partial, points: weight of 'unmarked voxels are mostly background'")
-      ->capture_default_str();
-  command->add_option("--pooling-sharpness", o.pooling_sharpness, "presence-mil: log-sum-exp sharpness r")
-      ->capture_default_str();
-  command->add_option("--point-radius-mm", o.point_radius_mm, "points: voxels this close to a click are positives")
-      ->capture_default_str();
-  command->add_option("--object-size-min-mm3", o.object_size_min_mm3, "points: smallest object per click, mm^3")
-      ->capture_default_str();
-  command->add_option("--object-size-max-mm3", o.object_size_max_mm3, "points: largest object per click, mm^3")
-      ->capture_default_str();
-  command->add_option("--mask-weight", o.mask_weight, "mixed: weight of the outline loss")->capture_default_str();
-  command->add_option("--weak-weight", o.weak_weight, "mixed: weight of the weak-label loss")->capture_default_str();
-  command
-      ->add_option("--consistency-weight", o.consistency_weight,
-                   "> 0 adds consistency under random deformations on the phantom set's unlabelled subjects")
-      ->capture_default_str();
-  command->add_option("--network", o.network_file,
-                      "TorchScript module to train instead of frugal's U-net (map strategies)");
+  keys.add(command, "--gce-q", o.gce_q, "gce_q", "Generalized cross entropy's q in (0, 1]");
+  keys.add(command, "--bootstrap-beta", o.bootstrap_beta, "bootstrap_beta",
+           "Hard bootstrapping's weight on the given label");
+  keys.add(command, "--label-smoothing", o.label_smoothing, "label_smoothing", "Label smoothing's epsilon in [0, 0.5)");
+  keys.add(command, "--background-prior", o.background_prior, "background_prior",
+           "partial, points: weight of 'unmarked voxels are mostly background'");
+  keys.add(command, "--pooling-sharpness", o.pooling_sharpness, "pooling_sharpness",
+           "presence-mil: log-sum-exp sharpness r");
+  keys.add(command, "--point-radius-mm", o.point_radius_mm, "point_radius_mm",
+           "points: voxels this close to a click are positives");
+  keys.add(command, "--object-size-min-mm3", o.object_size_min_mm3, "object_size_min_mm3",
+           "points: smallest object per click, mm^3");
+  keys.add(command, "--object-size-max-mm3", o.object_size_max_mm3, "object_size_max_mm3",
+           "points: largest object per click, mm^3");
+  keys.add(command, "--mask-weight", o.mask_weight, "mask_weight", "mixed: weight of the outline loss");
+  keys.add(command, "--weak-weight", o.weak_weight, "weak_weight", "mixed: weight of the weak-label loss");
+  keys.add(command, "--consistency-weight", o.consistency_weight, "consistency_weight",
+           "> 0 adds consistency under random deformations on the phantom set's unlabelled subjects");
+  keys.add(command, "--network", o.network_file, "network_file",
+           "TorchScript module to train instead of frugal's U-net (map strategies)");
   command->add_option("--rater-file", arguments->rater_file,
                       "Rater YAML whose grading bins to use (default: the grade label set's own rater)");
   // Without any of the three, the field is the phantom family's default (docs/train.md).
   arguments->field_options = {
-      command->add_option("--field-low", o.field.low, "Field (for fractions): lowest image value inside")
-          ->capture_default_str(),
-      command->add_option("--field-high", o.field.high, "Field: highest image value inside (voids default: -400)")
-          ->capture_default_str(),
+      keys.add(command, "--field-low", o.field.low, "field.low", "Field (for fractions): lowest image value inside"),
+      keys.add(command, "--field-high", o.field.high, "field.high",
+               "Field: highest image value inside (voids default: -400)"),
       command->add_flag("--field-drop-border", o.field.drop_border_connected,
                         "Field: drop parts that touch the image border (voids default: on)")};
-  command->add_option("--threshold-hu", o.threshold_hu, "threshold: voxels strictly below count")
-      ->capture_default_str();
-  command
-      ->add_option("--line-threshold", o.line_filter.threshold,
-                   "line-filter: share of the maximum response that marks a line")
-      ->capture_default_str();
-  command->add_option("--line-min-length-mm", o.line_filter.min_length_mm, "line-filter: shortest counted lesion")
-      ->capture_default_str();
-  command->add_option("--line-max-length-mm", o.line_filter.max_length_mm, "line-filter: longest counted lesion")
-      ->capture_default_str();
-  command
-      ->add_option("--line-min-elongation", o.line_filter.min_elongation,
-                   "line-filter: smallest length/width ratio counted")
-      ->capture_default_str();
+  keys.add(command, "--threshold-hu", o.threshold_hu, "threshold_hu", "threshold: voxels strictly below count");
+  keys.add(command, "--line-threshold", o.line_filter.threshold, "line_filter.threshold",
+           "line-filter: share of the maximum response that marks a line");
+  keys.add(command, "--line-min-length-mm", o.line_filter.min_length_mm, "line_filter.min_length_mm",
+           "line-filter: shortest counted lesion");
+  keys.add(command, "--line-max-length-mm", o.line_filter.max_length_mm, "line_filter.max_length_mm",
+           "line-filter: longest counted lesion");
+  keys.add(command, "--line-min-elongation", o.line_filter.min_elongation, "line_filter.min_elongation",
+           "line-filter: smallest length/width ratio counted");
   command->callback([arguments] { run_train(*arguments); });
 }
 

@@ -6,6 +6,7 @@
 #include <utility>
 
 #include "phantoms/image.h"
+#include "phantoms/key_path.h"
 #include "phantoms/text_format.h"
 
 namespace frugal {
@@ -39,8 +40,8 @@ namespace {
 // "key is value; allowed low..high unit" when value is outside [low, high] (NaN included).
 std::string check_range(const char* key, double value, double low, double high, const char* unit = "") {
   if (value >= low && value <= high) return {};
-  return std::string(key) + " is " + format_number(value) + "; allowed " + format_number(low) + ".." + format_number(high) +
-         (unit[0] != '\0' ? std::string(" ") + unit : std::string());
+  return std::string(key) + " is " + format_number(value) + "; allowed " + format_number(low) + ".." +
+         format_number(high) + (unit[0] != '\0' ? std::string(" ") + unit : std::string());
 }
 
 // Collects the first message of a sequence of checks.
@@ -62,14 +63,14 @@ constexpr double kMaxSeconds = 86400.0;  // one annotator-day per term is alread
 std::string DetectionOptions::validate() const {
   FirstError first;
   if (!(size50_mm > 0.0 && size50_mm <= 1000.0))
-    first("detection.size50_mm is " + format_number(size50_mm) + "; allowed > 0 up to 1000 mm");
-  first(check_range("detection.size_slope", size_slope, 0.0, 100.0, "per unit of ln(length)"));
-  first(check_range("detection.contrast50", contrast50, 0.0, 10.0, "(white matter = 1)"));
-  first(check_range("detection.contrast_slope", contrast_slope, 0.0, 1000.0, "per contrast unit"));
+    first("size50_mm is " + format_number(size50_mm) + "; allowed > 0 up to 1000 mm");
+  first(check_range("size_slope", size_slope, 0.0, 100.0, "per unit of ln(length)"));
+  first(check_range("contrast50", contrast50, 0.0, 10.0, "(white matter = 1)"));
+  first(check_range("contrast_slope", contrast_slope, 0.0, 1000.0, "per contrast unit"));
   // Above 0.5 the ceiling would sit below the midpoint of a curve meant for conspicuous lesions.
-  first(check_range("detection.lapse", lapse, 0.0, 0.5, "(probability)"));
-  first(check_range("detection.dot_confusion", dot_confusion, 0.0, 1.0, "(probability)"));
-  first(check_range("detection.line_confusion", line_confusion, 0.0, 1.0, "(probability)"));
+  first(check_range("lapse", lapse, 0.0, 0.5, "(probability)"));
+  first(check_range("dot_confusion", dot_confusion, 0.0, 1.0, "(probability)"));
+  first(check_range("line_confusion", line_confusion, 0.0, 1.0, "(probability)"));
   return first.take();
 }
 
@@ -83,70 +84,70 @@ double DetectionOptions::probability(double length_mm, double contrast) const {
 
 std::string CountingOptions::validate() const {
   FirstError first;
-  first(check_range("counting.slip_probability", slip_probability, 0.0, 0.5, "(probability)"));
-  if (cap < 0 || cap > 10000) first("counting.cap is " + format_number(cap) + "; allowed 0 (no cap) or 1..10000 lesions");
+  first(check_range("slip_probability", slip_probability, 0.0, 0.5, "(probability)"));
+  if (cap < 0 || cap > 10000) first("cap is " + format_number(cap) + "; allowed 0 (no cap) or 1..10000 lesions");
   return first.take();
 }
 
 std::string GradingOptions::validate() const {
   if (bin_edges.empty() || bin_edges.size() > 20)
-    return "grading.bin_edges has " + format_number(static_cast<double>(bin_edges.size())) +
+    return "bin_edges has " + format_number(static_cast<double>(bin_edges.size())) +
            " entries; allowed 1..20 upper edges (giving 2..21 grades)";
   for (std::size_t i = 0; i < bin_edges.size(); ++i) {
     const double edge = bin_edges[i];
     if (!(edge >= 0.0 && edge < 1.0))
-      return "grading.bin_edges entry " + format_number(static_cast<double>(i + 1)) + " is " + format_number(edge) +
+      return "bin_edges entry " + format_number(static_cast<double>(i + 1)) + " is " + format_number(edge) +
              "; allowed 0 <= edge < 1 (fractions of the field)";
     if (i > 0 && !(edge > bin_edges[i - 1]))
-      return "grading.bin_edges entry " + format_number(static_cast<double>(i + 1)) + " is " + format_number(edge) +
+      return "bin_edges entry " + format_number(static_cast<double>(i + 1)) + " is " + format_number(edge) +
              "; edges must increase strictly (previous " + format_number(bin_edges[i - 1]) + ")";
   }
   FirstError first;
-  first(check_range("grading.perception_sd", perception_sd, 0.0, 5.0, "logit units"));
-  first(check_range("grading.bias", bias, -5.0, 5.0, "logit units"));
+  first(check_range("perception_sd", perception_sd, 0.0, 5.0, "logit units"));
+  first(check_range("bias", bias, -5.0, 5.0, "logit units"));
   return first.take();
 }
 
-std::string ClickOptions::validate() const { return check_range("clicks.jitter_mm", jitter_mm, 0.0, 50.0, "mm"); }
+std::string ClickOptions::validate() const { return check_range("jitter_mm", jitter_mm, 0.0, 50.0, "mm"); }
 
 std::string RegionGrowOptions::validate() const {
   FirstError first;
-  if (seeds < 1 || seeds > 1000) first("region_grow.seeds is " + format_number(seeds) + "; allowed 1..1000 lesions");
-  first(check_range("region_grow.tolerance", tolerance, 0.0, 1.0, "(fraction of the seed intensity)"));
+  if (seeds < 1 || seeds > 1000) first("seeds is " + format_number(seeds) + "; allowed 1..1000 lesions");
+  first(check_range("tolerance", tolerance, 0.0, 1.0, "(fraction of the seed intensity)"));
   if (connectivity != 0 && connectivity != 4 && connectivity != 8 && connectivity != 6 && connectivity != 26)
-    first("region_grow.connectivity is " + format_number(connectivity) +
+    first("connectivity is " + format_number(connectivity) +
           "; allowed 0 (the smallest: 4 in 2D, 6 in 3D), 4 or 8 (2D), 6 or 26 (3D)");
   if (!(max_region_mm3 > 0.0 && max_region_mm3 <= 1e6))
-    first("region_grow.max_region_mm3 is " + format_number(max_region_mm3) + "; allowed > 0 up to 1e+06 mm3");
+    first("max_region_mm3 is " + format_number(max_region_mm3) + "; allowed > 0 up to 1e+06 mm3");
   return first.take();
 }
 
 std::string OutlineOptions::validate() const {
   FirstError first;
-  first(check_range("outline.displacement_sd_mm", displacement_sd_mm, 0.0, 20.0, "mm"));
+  first(check_range("displacement_sd_mm", displacement_sd_mm, 0.0, 20.0, "mm"));
   if (!(displacement_scale_mm > 0.0 && displacement_scale_mm <= 200.0))
-    first("outline.displacement_scale_mm is " + format_number(displacement_scale_mm) + "; allowed > 0 up to 200 mm");
-  first(check_range("outline.bias_mm", bias_mm, -20.0, 20.0, "mm"));
-  first(check_range("outline.protrusion_rate", protrusion_rate, 0.0, 20.0, "per lesion"));
-  first(check_range("outline.hole_rate", hole_rate, 0.0, 20.0, "per lesion"));
-  first(check_range("outline.spurious_rate", spurious_rate, 0.0, 100.0, "per image"));
+    first("displacement_scale_mm is " + format_number(displacement_scale_mm) + "; allowed > 0 up to 200 mm");
+  first(check_range("bias_mm", bias_mm, -20.0, 20.0, "mm"));
+  first(check_range("protrusion_rate", protrusion_rate, 0.0, 20.0, "per lesion"));
+  first(check_range("hole_rate", hole_rate, 0.0, 20.0, "per lesion"));
+  first(check_range("spurious_rate", spurious_rate, 0.0, 100.0, "per image"));
   return first.take();
 }
 
 std::string CostOptions::validate() const {
   FirstError first;
   const std::pair<const char*, double> terms[] = {
-      {"cost.presence_per_image_s", presence_per_image_s},
-      {"cost.count_per_image_s", count_per_image_s},
-      {"cost.count_per_lesion_s", count_per_lesion_s},
-      {"cost.grade_per_image_s", grade_per_image_s},
-      {"cost.points_per_image_s", points_per_image_s},
-      {"cost.points_per_click_s", points_per_click_s},
-      {"cost.partial_per_image_s", partial_per_image_s},
-      {"cost.partial_per_seed_s", partial_per_seed_s},
-      {"cost.outline_per_image_s", outline_per_image_s},
-      {"cost.outline_per_lesion_s", outline_per_lesion_s},
-      {"cost.outline_per_boundary_mm_s", outline_per_boundary_mm_s},
+      {"presence_per_image_s", presence_per_image_s},
+      {"count_per_image_s", count_per_image_s},
+      {"count_per_lesion_s", count_per_lesion_s},
+      {"grade_per_image_s", grade_per_image_s},
+      {"points_per_image_s", points_per_image_s},
+      {"points_per_click_s", points_per_click_s},
+      {"partial_per_image_s", partial_per_image_s},
+      {"partial_per_seed_s", partial_per_seed_s},
+      {"outline_per_image_s", outline_per_image_s},
+      {"outline_per_lesion_s", outline_per_lesion_s},
+      {"outline_per_boundary_mm_s", outline_per_boundary_mm_s},
   };
   for (const auto& [key, seconds] : terms) first(check_range(key, seconds, 0.0, kMaxSeconds, "s"));
   return first.take();
@@ -154,9 +155,9 @@ std::string CostOptions::validate() const {
 
 std::string PanelOptions::validate() const {
   FirstError first;
-  if (raters < 1 || raters > 100) first("panel.raters is " + format_number(raters) + "; allowed 1..100");
-  first(check_range("panel.spread", spread, 0.0, 2.0, "(SD of the log of each parameter)"));
-  first(check_range("panel.bias_sd", bias_sd, 0.0, 5.0, "logit units"));
+  if (raters < 1 || raters > 100) first("raters is " + format_number(raters) + "; allowed 1..100");
+  first(check_range("spread", spread, 0.0, 2.0, "(SD of the log of each parameter)"));
+  first(check_range("bias_sd", bias_sd, 0.0, 5.0, "logit units"));
   return first.take();
 }
 
@@ -165,14 +166,14 @@ std::string RaterOptions::validate() const {
   if (!is_printable_name(name))
     return "name holds only blanks or control characters; give the rater model a printable name";
   FirstError first;
-  first(detection.validate());
-  first(counting.validate());
-  first(grading.validate());
-  first(clicks.validate());
-  first(region_grow.validate());
-  first(outline.validate());
-  first(cost.validate());
-  first(panel.validate());
+  first(key_path_under("detection", detection.validate()));
+  first(key_path_under("counting", counting.validate()));
+  first(key_path_under("grading", grading.validate()));
+  first(key_path_under("clicks", clicks.validate()));
+  first(key_path_under("region_grow", region_grow.validate()));
+  first(key_path_under("outline", outline.validate()));
+  first(key_path_under("cost", cost.validate()));
+  first(key_path_under("panel", panel.validate()));
   return first.take();
 }
 

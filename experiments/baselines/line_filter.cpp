@@ -10,6 +10,7 @@
 #include <vector>
 
 #include "experiments/measure/connected_components.h"
+#include "phantoms/key_path.h"
 #include "phantoms/user_error.h"
 
 namespace frugal::baselines {
@@ -215,25 +216,24 @@ double vesselness_3d(double lambda_a, double lambda_b, double lambda_c, double a
 
 std::string LineFilterOptions::validate() const {
   std::ostringstream message;
-  if (sigmas_mm.empty()) return "line_filter.sigmas_mm: empty; give at least one scale in mm (e.g. [1, 1.5, 2])";
+  if (sigmas_mm.empty()) return "sigmas_mm: empty; give at least one scale in mm (e.g. [1, 1.5, 2])";
   for (std::size_t i = 0; i < sigmas_mm.size(); ++i)
     if (!(sigmas_mm[i] > 0.0) || !std::isfinite(sigmas_mm[i])) {
-      message << "line_filter.sigmas_mm[" << i << "]: " << sigmas_mm[i] << " is not allowed; scales must be > 0 mm";
+      message << "sigmas_mm[" << i << "]: " << sigmas_mm[i] << " is not allowed; scales must be > 0 mm";
       return message.str();
     }
   if (!(alpha > 0.0) || !std::isfinite(alpha))
-    message << "line_filter.alpha: " << alpha << " is not allowed; use a value > 0 (Frangi: 0.5)";
+    message << "alpha: " << alpha << " is not allowed; use a value > 0 (Frangi: 0.5)";
   else if (!(beta > 0.0) || !std::isfinite(beta))
-    message << "line_filter.beta: " << beta << " is not allowed; use a value > 0 (Frangi: 0.5)";
+    message << "beta: " << beta << " is not allowed; use a value > 0 (Frangi: 0.5)";
   else if (!(c >= 0.0) || !std::isfinite(c))
-    message << "line_filter.c: " << c
-            << " is not allowed; use a value > 0 in image units, or 0 for half the largest Hessian norm";
+    message << "c: " << c << " is not allowed; use a value > 0 in image units, or 0 for half the largest Hessian norm";
   return message.str();
 }
 
 LineFilterResult line_filter(const FloatImage& image, const LineFilterOptions& options) {
   const std::string problem = options.validate();
-  if (!problem.empty()) throw UserError(problem);
+  if (!problem.empty()) throw UserError(key_path_under("line_filter", problem));
   const Shape& shape = image.shape();
   const int dims = shape.dims();
   if (shape.x < 3 || shape.y < 3 || (dims == 3 && shape.z < 3))
@@ -283,29 +283,28 @@ LineFilterResult line_filter(const FloatImage& image, const LineFilterOptions& o
 }
 
 std::string LineCountOptions::validate() const {
-  std::string problem = filter.validate();
-  if (!problem.empty()) return problem;
+  if (std::string problem = key_path_under("filter", filter.validate()); !problem.empty()) return problem;
   std::ostringstream message;
   if (!std::isfinite(threshold) || threshold < 0.0 ||
       (threshold_kind == ResponseThreshold::relative && (threshold <= 0.0 || threshold > 1.0)))
-    message << "line_count.threshold: " << threshold
+    message << "threshold: " << threshold
             << " is not allowed; relative thresholds lie in (0, 1], absolute ones are >= 0";
   else if (connectivity != 0 && connectivity != 4 && connectivity != 8 && connectivity != 6 && connectivity != 18 &&
            connectivity != 26)
-    message << "line_count.connectivity: " << connectivity << " is not allowed; use 0, 4 or 8 (2D), 6, 18 or 26 (3D)";
+    message << "connectivity: " << connectivity << " is not allowed; use 0, 4 or 8 (2D), 6, 18 or 26 (3D)";
   else if (min_voxels < 1)
-    message << "line_count.min_voxels: " << min_voxels << " is not allowed; use 1 or more";
+    message << "min_voxels: " << min_voxels << " is not allowed; use 1 or more";
   else if (!(min_length_mm >= 0.0) || !(max_length_mm >= min_length_mm) || !std::isfinite(max_length_mm))
-    message << "line_count.min_length_mm/max_length_mm: " << min_length_mm << "/" << max_length_mm
+    message << "min_length_mm/max_length_mm: " << min_length_mm << "/" << max_length_mm
             << " is not allowed; use 0 <= min_length_mm <= max_length_mm, both finite";
   else if (!(min_elongation >= 1.0) || !std::isfinite(min_elongation))
-    message << "line_count.min_elongation: " << min_elongation << " is not allowed; use a ratio >= 1";
+    message << "min_elongation: " << min_elongation << " is not allowed; use a ratio >= 1";
   return message.str();
 }
 
 LineCountResult count_lines(const FloatImage& image, const LineCountOptions& options, const LabelImage* field) {
   const std::string problem = options.validate();
-  if (!problem.empty()) throw UserError(problem);
+  if (!problem.empty()) throw UserError(key_path_under("line_count", problem));
   const Shape& shape = image.shape();
   const int dims = shape.dims();
   const measure::ConnectivityOptions connectivity{options.connectivity};

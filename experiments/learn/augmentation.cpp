@@ -22,8 +22,8 @@ constexpr double kPi = 3.14159265358979323846;
 
 std::string check_range(const char* key, double value, double low, double high) {
   if (std::isfinite(value) && value >= low && value <= high) return {};
-  return std::string("train.augmentation.") + key + " = " + format_number(value) + ": allowed [" + format_number(low) +
-         ", " + format_number(high) + "]";
+  return std::string(key) + " = " + format_number(value) + ": allowed [" + format_number(low) + ", " +
+         format_number(high) + "]";
 }
 
 std::array<int, 3> extent_of(const Shape& shape) { return {shape.x, shape.y, shape.z}; }

@@ -18,7 +18,7 @@ struct AugmentationOptions {
   double deformation_mm = 0.0;           // standard deviation of each displacement component, in mm
   double deformation_spacing_mm = 16.0;  // control-point spacing of the displacement: larger is smoother
   bool geometric() const { return rotation_degrees > 0.0 || deformation_mm > 0.0; }
-  // Empty, or "train.augmentation.<key> = <value>: <what is allowed>".
+  // Empty, or "<key> = <value>: <what is allowed>".
   std::string validate() const;
 };
 

@@ -11,8 +11,8 @@
 #include <fstream>
 #include <iterator>
 #include <limits>
-#include <sstream>
 #include <nlohmann/json.hpp>
+#include <sstream>
 #include <string>
 #include <unordered_map>
 #include <utility>
@@ -162,12 +162,14 @@ std::string read_verified_checkpoint(const std::string& path) {
   if (!stream.good() && !stream.eof()) throw UserError(path + ": cannot read the checkpoint");
   const std::string magic(kTrailerMagic, sizeof kTrailerMagic - 1);
   if (bytes.size() < kTrailerSize || bytes.compare(bytes.size() - kTrailerSize, magic.size(), magic) != 0)
-    throw UserError(path + ": not a frugal checkpoint of this version, or cut short (no check sum at its end); "
+    throw UserError(path +
+                    ": not a frugal checkpoint of this version, or cut short (no check sum at its end); "
                     "allowed: a file frugal train wrote (train the model again)");
   const std::string stored = bytes.substr(bytes.size() - 64);
   bytes.resize(bytes.size() - kTrailerSize);
   if (sha256_hex(bytes) != stored)
-    throw UserError(path + ": the checkpoint is damaged (its SHA-256 check sum does not match its content: an "
+    throw UserError(path +
+                    ": the checkpoint is damaged (its SHA-256 check sum does not match its content: an "
                     "altered or badly copied file); allowed: the file as frugal train wrote it");
   return bytes;
 }

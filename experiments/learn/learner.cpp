@@ -1,7 +1,6 @@
 // Training: the loop every strategy shares. Strategies differ only in their samples and losses
 // (strategy_losses.cpp); networks only behind internal::Network.
 #include "experiments/learn/learner.h"
-#include "experiments/learn/memory_estimate.h"
 
 #include <torch/torch.h>
 
@@ -17,8 +16,10 @@
 #include <vector>
 
 #include "experiments/learn/augmentation.h"
+#include "experiments/learn/memory_estimate.h"
 #include "experiments/learn/model_internal.h"
 #include "experiments/learn/strategy_losses_internal.h"
+#include "phantoms/key_path.h"
 #include "phantoms/random.h"
 #include "phantoms/user_error.h"
 
@@ -186,7 +187,8 @@ std::string kinds_text(const std::vector<LabelKind>& kinds) {
 }
 
 void check_trainable(const TrainingSet& set, const TrainOptions& options) {
-  if (const std::string message = options.validate(); !message.empty()) throw UserError(message);
+  if (const std::string message = options.validate(); !message.empty())
+    throw UserError(key_path_under("train", message));
   const Strategy strategy = options.strategy;
   const std::string name = to_string(strategy);
   if (is_classical(strategy)) return;

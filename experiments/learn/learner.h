@@ -115,7 +115,7 @@ struct TrainOptions {
   std::string network_file;                 // TorchScript module for map strategies; empty = frugal's U-net
   GradingOptions grading;                   // the grading rater's bins (grade-bounds, scalar on grades)
   FieldOptions field;                       // grade-bounds, threshold and affected fractions
-  std::string validate() const;             // empty, or "train.<key> = <value>: <what is allowed>"
+  std::string validate() const;             // empty, or "<key> = <value>: <what is allowed>" (key path relative to TrainOptions)
 };
 
 // Images and the labels bought for them, one label per image (an image labelled twice is added

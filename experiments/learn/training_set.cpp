@@ -6,6 +6,7 @@
 
 #include "experiments/learn/learner.h"
 #include "experiments/measure/connected_components.h"
+#include "phantoms/key_path.h"
 #include "phantoms/text_format.h"
 #include "phantoms/user_error.h"
 
@@ -112,7 +113,7 @@ Normalization normalization_from_string(const std::string& name) {
 
 std::string FieldOptions::validate() const {
   if (std::isnan(low) || std::isnan(high) || !(low < high))
-    return "train.field.low = " + format_number(low) + ", high = " + format_number(high) + ": low must be below high";
+    return "low = " + format_number(low) + ", high = " + format_number(high) + ": low must be below high";
   return "";
 }
 
@@ -153,46 +154,43 @@ FieldOptions default_field_for_family(const std::string& family) {
 }
 
 std::string TrainOptions::validate() const {
-  if (epochs < 1) return "train.epochs = " + format_number(epochs) + ": must be at least 1";
-  if (batch_size < 1) return "train.batch_size = " + format_number(batch_size) + ": must be at least 1";
+  if (epochs < 1) return "epochs = " + format_number(epochs) + ": must be at least 1";
+  if (batch_size < 1) return "batch_size = " + format_number(batch_size) + ": must be at least 1";
   if (!(learning_rate > 0.0) || !std::isfinite(learning_rate))
-    return "train.learning_rate = " + format_number(learning_rate) + ": must be a positive number";
+    return "learning_rate = " + format_number(learning_rate) + ": must be a positive number";
   if (!(weight_decay >= 0.0) || !std::isfinite(weight_decay))
-    return "train.weight_decay = " + format_number(weight_decay) + ": must be zero or positive";
-  if (threads < 1 || threads > 256) return "train.threads = " + format_number(threads) + ": allowed 1 to 256";
+    return "weight_decay = " + format_number(weight_decay) + ": must be zero or positive";
+  if (threads < 1 || threads > 256) return "threads = " + format_number(threads) + ": allowed 1 to 256";
   if (!(validation_fraction >= 0.0 && validation_fraction < 0.9))
-    return "train.validation_fraction = " + format_number(validation_fraction) + ": allowed [0, 0.9)";
-  if (patience < 0) return "train.patience = " + format_number(patience) + ": must be 0 (never stop early) or more";
-  if (width < 1 || width > 256) return "train.width = " + format_number(width) + ": allowed 1 to 256";
-  if (depth < 1 || depth > 6) return "train.depth = " + format_number(depth) + ": allowed 1 to 6";
+    return "validation_fraction = " + format_number(validation_fraction) + ": allowed [0, 0.9)";
+  if (patience < 0) return "patience = " + format_number(patience) + ": must be 0 (never stop early) or more";
+  if (width < 1 || width > 256) return "width = " + format_number(width) + ": allowed 1 to 256";
+  if (depth < 1 || depth > 6) return "depth = " + format_number(depth) + ": allowed 1 to 6";
   const auto non_negative = [](double value) { return value >= 0.0 && std::isfinite(value); };
-  if (!non_negative(dice_weight))
-    return "train.dice_weight = " + format_number(dice_weight) + ": must be zero or positive";
-  if (!(gce_q > 0.0 && gce_q <= 1.0)) return "train.gce_q = " + format_number(gce_q) + ": allowed (0, 1]";
+  if (!non_negative(dice_weight)) return "dice_weight = " + format_number(dice_weight) + ": must be zero or positive";
+  if (!(gce_q > 0.0 && gce_q <= 1.0)) return "gce_q = " + format_number(gce_q) + ": allowed (0, 1]";
   if (!(bootstrap_beta >= 0.0 && bootstrap_beta <= 1.0))
-    return "train.bootstrap_beta = " + format_number(bootstrap_beta) + ": allowed [0, 1]";
+    return "bootstrap_beta = " + format_number(bootstrap_beta) + ": allowed [0, 1]";
   if (!(label_smoothing >= 0.0 && label_smoothing < 0.5))
-    return "train.label_smoothing = " + format_number(label_smoothing) + ": allowed [0, 0.5)";
+    return "label_smoothing = " + format_number(label_smoothing) + ": allowed [0, 0.5)";
   if (!non_negative(background_prior))
-    return "train.background_prior = " + format_number(background_prior) + ": must be zero or positive";
+    return "background_prior = " + format_number(background_prior) + ": must be zero or positive";
   if (!(pooling_sharpness > 0.0 && pooling_sharpness <= 100.0))
-    return "train.pooling_sharpness = " + format_number(pooling_sharpness) + ": allowed (0, 100]";
+    return "pooling_sharpness = " + format_number(pooling_sharpness) + ": allowed (0, 100]";
   if (!(point_radius_mm >= 0.0 && point_radius_mm <= 50.0))
-    return "train.point_radius_mm = " + format_number(point_radius_mm) + ": allowed [0, 50]";
+    return "point_radius_mm = " + format_number(point_radius_mm) + ": allowed [0, 50]";
   if (!(object_size_min_mm3 >= 0.0 && object_size_min_mm3 < object_size_max_mm3 && std::isfinite(object_size_max_mm3)))
-    return "train.object_size_min_mm3 = " + format_number(object_size_min_mm3) +
+    return "object_size_min_mm3 = " + format_number(object_size_min_mm3) +
            ", object_size_max_mm3 = " + format_number(object_size_max_mm3) + ": need 0 <= min < max";
-  if (!non_negative(mask_weight))
-    return "train.mask_weight = " + format_number(mask_weight) + ": must be zero or positive";
-  if (!non_negative(weak_weight))
-    return "train.weak_weight = " + format_number(weak_weight) + ": must be zero or positive";
+  if (!non_negative(mask_weight)) return "mask_weight = " + format_number(mask_weight) + ": must be zero or positive";
+  if (!non_negative(weak_weight)) return "weak_weight = " + format_number(weak_weight) + ": must be zero or positive";
   if (!non_negative(consistency_weight))
-    return "train.consistency_weight = " + format_number(consistency_weight) + ": must be zero or positive";
-  if (!std::isfinite(threshold_hu)) return "train.threshold_hu = " + format_number(threshold_hu) + ": must be a number";
-  if (const std::string message = augmentation.validate(); !message.empty()) return message;
-  if (const std::string message = line_filter.validate(); !message.empty()) return "train.line_filter." + message;
-  if (const std::string message = grading.validate(); !message.empty()) return "train." + message;
-  return field.validate();
+    return "consistency_weight = " + format_number(consistency_weight) + ": must be zero or positive";
+  if (!std::isfinite(threshold_hu)) return "threshold_hu = " + format_number(threshold_hu) + ": must be a number";
+  if (std::string message = key_path_under("augmentation", augmentation.validate()); !message.empty()) return message;
+  if (std::string message = key_path_under("line_filter", line_filter.validate()); !message.empty()) return message;
+  if (std::string message = key_path_under("grading", grading.validate()); !message.empty()) return message;
+  return key_path_under("field", field.validate());
 }
 
 void TrainingSet::check_shape(const FloatImage& image, const std::string& what) const {

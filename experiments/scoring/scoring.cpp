@@ -1,9 +1,9 @@
 #include "experiments/scoring/scoring.h"
 
 #include <Eigen/Core>
+#include <algorithm>
 #include <cmath>
 #include <cstdio>
-#include <algorithm>
 #include <functional>
 #include <limits>
 #include <map>
@@ -16,6 +16,7 @@
 #include "experiments/measure/overlap.h"
 #include "experiments/measure/repeatability.h"
 #include "frugal_version.h"
+#include "phantoms/key_path.h"
 #include "phantoms/nifti_io.h"
 #include "phantoms/subject.h"
 #include "phantoms/user_error.h"
@@ -138,8 +139,8 @@ MapScore MapScoreAccumulator::finish() const {
   return score;
 }
 
-RepeatabilityScore score_repeatability(const std::string& quantity, const std::vector<std::vector<double>>& measurements,
-                                       double confidence) {
+RepeatabilityScore score_repeatability(const std::string& quantity,
+                                       const std::vector<std::vector<double>>& measurements, double confidence) {
   RepeatabilityScore score;
   score.quantity = quantity;
   score.within_subject_sd = score.coefficient = score.coefficient_lower = score.coefficient_upper = kNaN;
@@ -178,12 +179,12 @@ RepeatabilityScore score_repeatability(const std::string& quantity, const std::v
 }
 
 std::string ScoreOptions::validate() const {
-  if (const std::string error = grading.validate(); !error.empty()) return error;
+  if (std::string error = key_path_under("grading", grading.validate()); !error.empty()) return error;
   if (!(presence_threshold > 0.0 && presence_threshold < 1.0))
     return "presence_threshold = " + text(presence_threshold) + ": allowed (0, 1)";
   if (!std::isfinite(map_threshold)) return "map_threshold = " + text(map_threshold) + ": must be a number";
   if (!(confidence > 0.0 && confidence < 1.0)) return "confidence = " + text(confidence) + ": allowed (0, 1)";
-  return detection.validate(2);
+  return key_path_under("detection", detection.validate(2));
 }
 
 QuantityScore score_quantity(const std::string& quantity, const std::vector<double>& predicted,

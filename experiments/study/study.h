@@ -25,7 +25,7 @@ struct CohortOptions {
   int test = 100;                  // held-out subjects, never trained on or used for model selection
   int test_rescans = 0;            // rescans per test subject (repeatability); 0 = none
   bool decorrelated_test = false;  // a second test set with the confounder's correlation set to 0
-  std::string validate() const;    // empty, or "cohort.<key> = <value>: <what is allowed>"
+  std::string validate() const;    // empty, or "<key> = <value>: <what is allowed>"
 };
 
 // One kind of label from one rater panel. kind "none" (no labels) is for the classical

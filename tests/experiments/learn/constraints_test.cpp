@@ -10,6 +10,7 @@
 #include <vector>
 
 #include "experiments/learn/learner.h"
+#include "phantoms/key_path.h"
 #include "phantoms/subject.h"
 #include "phantoms/user_error.h"
 
@@ -76,21 +77,25 @@ std::string message_after(Change change) {
 }
 
 TEST(TrainOptions, ValidateNamesTheKey) {
+  // Each message begins with the key path relative to TrainOptions; nested structs' keys are
+  // prefixed with their member's name (phantoms/key_path.h).
+  const auto key_after = [](const std::function<void(TrainOptions&)>& change) {
+    return key_path_of(message_after(change));
+  };
   EXPECT_EQ(message_after([](TrainOptions&) {}), "");
-  EXPECT_NE(message_after([](TrainOptions& o) { o.epochs = 0; }).find("train.epochs"), std::string::npos);
-  EXPECT_NE(message_after([](TrainOptions& o) { o.validation_fraction = 0.95; }).find("train.validation_fraction"),
-            std::string::npos);
-  EXPECT_NE(message_after([](TrainOptions& o) { o.gce_q = 0.0; }).find("train.gce_q"), std::string::npos);
-  EXPECT_NE(message_after([](TrainOptions& o) { o.label_smoothing = 0.5; }).find("train.label_smoothing"),
-            std::string::npos);
-  EXPECT_NE(message_after([](TrainOptions& o) { o.object_size_min_mm3 = 50.0; }).find("train.object_size_min_mm3"),
-            std::string::npos);
-  EXPECT_NE(message_after([](TrainOptions& o) { o.consistency_weight = -1.0; }).find("train.consistency_weight"),
-            std::string::npos);
-  EXPECT_NE(message_after([](TrainOptions& o) {
-              o.augmentation.rotation_degrees = 90.0;
-            }).find("train.augmentation.rotation_degrees"),
-            std::string::npos);
+  EXPECT_EQ(key_after([](TrainOptions& o) { o.epochs = 0; }), "epochs");
+  EXPECT_EQ(key_after([](TrainOptions& o) { o.validation_fraction = 0.95; }), "validation_fraction");
+  EXPECT_EQ(key_after([](TrainOptions& o) { o.gce_q = 0.0; }), "gce_q");
+  EXPECT_EQ(key_after([](TrainOptions& o) { o.label_smoothing = 0.5; }), "label_smoothing");
+  EXPECT_EQ(key_after([](TrainOptions& o) { o.object_size_min_mm3 = 50.0; }), "object_size_min_mm3");
+  EXPECT_EQ(key_after([](TrainOptions& o) { o.consistency_weight = -1.0; }), "consistency_weight");
+  EXPECT_EQ(key_after([](TrainOptions& o) { o.augmentation.rotation_degrees = 90.0; }),
+            "augmentation.rotation_degrees");
+  EXPECT_EQ(key_after([](TrainOptions& o) { o.line_filter.threshold = 2.0; }), "line_filter.threshold");
+  EXPECT_EQ(key_after([](TrainOptions& o) { o.line_filter.filter.sigmas_mm = {1.0, -1.0}; }),
+            "line_filter.filter.sigmas_mm");
+  EXPECT_EQ(key_after([](TrainOptions& o) { o.grading.bin_edges = {0.5, 0.1}; }), "grading.bin_edges");
+  EXPECT_EQ(key_after([](TrainOptions& o) { o.field.low = 10.0, o.field.high = 0.0; }), "field.low");
   EXPECT_THROW(strategy_from_string("density"), UserError);
   EXPECT_EQ(strategy_from_string("grade-bounds"), Strategy::grade_bounds);
   EXPECT_EQ(to_string(Strategy::count_map), "count-map");
