@@ -10,6 +10,7 @@
 #include <string>
 
 #include "cli/commands.h"
+#include "cli/option_keys.h"
 #include "corruptors/rater_yaml.h"
 #include "experiments/scoring/predictions_table.h"
 #include "experiments/scoring/scoring.h"
@@ -28,6 +29,7 @@ struct ScoreArguments {
   std::string json_file;
   std::string rater_file;
   scoring::ScoreOptions options;
+  OptionKeys keys{"score"};  // which option sets which key, for messages
 };
 
 // Four significant digits: counts, fractions and mm^3 burdens share one table.
@@ -164,7 +166,8 @@ void refuse_unfinished_predict_folder(const std::string& predictions_file) {
 
 void run_score(ScoreArguments& arguments) {
   if (!arguments.rater_file.empty()) arguments.options.grading = read_rater_file(arguments.rater_file).grading;
-  if (const std::string error = arguments.options.validate(); !error.empty()) throw UserError(error);
+  if (const std::string error = arguments.options.validate(); !error.empty())
+    throw UserError(arguments.keys.message(error));
   if (!arguments.json_file.empty())
     require_writable_output(arguments.json_file, OutputKind::file, "a new or regular file for the JSON report");
   refuse_unfinished_predict_folder(arguments.predictions);
@@ -197,15 +200,14 @@ void add_score_command(CLI::App& app) {
   command->add_option("--json", arguments->json_file, "Also write every number to this JSON file");
   command->add_option("--rater-file", arguments->rater_file,
                       "Rater YAML whose grading bins define the true grade (default: frugal's default bins)");
-  command->add_option("--presence-threshold", o.presence_threshold, "Accuracy: probability above it reads as present")
-      ->capture_default_str();
-  command->add_option("--map-threshold", o.map_threshold, "Probability maps: voxels above it are lesion")
-      ->capture_default_str();
-  command
-      ->add_option("--minimum-iou", o.detection.minimum_iou,
-                   "Lesion-wise matching: smallest overlap (IoU) of a found lesion with a true one")
-      ->capture_default_str();
-  command->add_option("--confidence", o.confidence, "Level of the ICC interval")->capture_default_str();
+  OptionKeys& keys = arguments->keys;
+  keys.add(command, "--presence-threshold", o.presence_threshold, "presence_threshold",
+           "Accuracy: probability above it reads as present");
+  keys.add(command, "--map-threshold", o.map_threshold, "map_threshold", "Probability maps: voxels above it are lesion");
+  keys.add(command, "--minimum-iou", o.detection.minimum_iou, "detection.minimum_iou",
+           "Lesion-wise matching: smallest overlap (IoU) of a found lesion with a true one");
+  keys.add(command, "--confidence", o.confidence, "confidence", "Level of the ICC interval");
+  keys.explain("grading", "grading bins come from --rater-file");
   command->callback([arguments] { run_score(*arguments); });
 }
 

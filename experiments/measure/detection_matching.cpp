@@ -13,7 +13,7 @@ std::string DetectionMatchingOptions::validate(int dims) const {
   if (std::string problem = connectivity.validate(dims); !problem.empty()) return problem;
   if (!(minimum_iou > 0.0 && minimum_iou <= 1.0)) {
     std::ostringstream message;
-    message << "minimum IoU is " << minimum_iou << "; allowed: greater than 0 and at most 1";
+    message << "minimum_iou is " << minimum_iou << "; allowed: greater than 0 and at most 1";
     return message.str();
   }
   return {};
