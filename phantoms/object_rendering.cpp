@@ -13,6 +13,12 @@ using Vec = std::array<double, 3>;
 double dot(const Vec& a, const Vec& b) { return a[0] * b[0] + a[1] * b[1] + a[2] * b[2]; }
 Vec sub(const Vec& a, const Vec& b) { return {a[0] - b[0], a[1] - b[1], a[2] - b[2]}; }
 
+// Point n of `samples` + 1 evenly spaced along a straight long axis, centre +- half * direction.
+Vec straight_axis_point(const Vec& centre, const Vec& direction, double half, int n, int samples) {
+  const double t = samples > 0 ? -half + 2.0 * half * n / samples : 0.0;
+  return {centre[0] + t * direction[0], centre[1] + t * direction[1], centre[2] + t * direction[2]};
+}
+
 // A shape given by a level function (<= 0 inside) with a Lipschitz bound, so that one evaluation
 // at the voxel centre tells whether the voxel can be partly covered.
 struct SpheroidLevel {
@@ -30,8 +36,8 @@ struct SpheroidLevel {
     return std::sqrt(s.semi_long_mm * s.semi_long_mm * u * u + s.semi_short_mm * s.semi_short_mm * (1.0 - u * u));
   }
   const Vec& centre() const { return s.centre_mm; }
-  const Vec& direction() const { return s.direction; }
-  double axis_half_length() const { return s.semi_long_mm; }
+  double axis_length() const { return 2.0 * s.semi_long_mm; }
+  Vec axis_point(int n, int samples) const { return straight_axis_point(s.centre_mm, s.direction, s.semi_long_mm, n, samples); }
 };
 
 struct CapsuleLevel {
@@ -46,8 +52,28 @@ struct CapsuleLevel {
   }
   double extent(std::size_t axis) const { return c.half_length_mm * std::abs(c.direction[axis]) + c.radius_mm; }
   const Vec& centre() const { return c.centre_mm; }
-  const Vec& direction() const { return c.direction; }
-  double axis_half_length() const { return c.half_length_mm; }
+  double axis_length() const { return 2.0 * c.half_length_mm; }
+  Vec axis_point(int n, int samples) const { return straight_axis_point(c.centre_mm, c.direction, c.half_length_mm, n, samples); }
+};
+
+// A tube's level is the nearest of its pieces'; its box is the union of the pieces' boxes.
+struct TubeLevel {
+  const Tube& tube;
+  Vec box_centre{}, box_half{};
+  explicit TubeLevel(const Tube& t) : tube(t) {
+    Vec low{}, high{};
+    tube.bounds(low, high);
+    for (std::size_t axis = 0; axis < 3; ++axis) {
+      box_centre[axis] = 0.5 * (low[axis] + high[axis]);
+      box_half[axis] = 0.5 * (high[axis] - low[axis]);
+    }
+  }
+  double lipschitz() const { return tube.lipschitz(); }
+  double operator()(const Vec& p) const { return tube.level(p); }
+  double extent(std::size_t axis) const { return box_half[axis]; }
+  const Vec& centre() const { return box_centre; }
+  double axis_length() const { return tube.length_mm(); }
+  Vec axis_point(int n, int samples) const { return tube.point(samples > 0 ? tube.length_mm() * n / samples : 0.0); }
 };
 
 // Whether the voxels labelled `id` inside the box [low, high] form exactly one component
@@ -143,18 +169,16 @@ RenderedObject render_level(const Level& level, float contrast, std::uint16_t id
         if (at_centre <= 0.0) label(i, j, k);
       }
   // A thin slanted object can fall apart between voxel centres, or miss every centre. Only then
-  // the voxels its long axis crosses join the label, so every object is one 26-connected (8 in
+  // the voxels its long axis (a tube's centreline) crosses join the label, so every object is one 26-connected (8 in
   // 2D) component while objects that are already whole keep the unbiased centre rule.
   if (!is_one_component(instances, id, low, high, flat)) {
     const double step = 0.25 * std::min({g.spacing_mm[0], g.spacing_mm[1], flat ? g.spacing_mm[0] : g.spacing_mm[2]});
-    const double half = level.axis_half_length();
-    const int samples = static_cast<int>(std::ceil(2.0 * half / step));
+    const int samples = static_cast<int>(std::ceil(level.axis_length() / step));
     for (int n = 0; n <= samples; ++n) {
-      const double t = samples > 0 ? -half + 2.0 * half * n / samples : 0.0;
+      const Vec point = level.axis_point(n, samples);
       int index[3];
       for (std::size_t axis = 0; axis < 3; ++axis)
-        index[axis] = static_cast<int>(std::lround(
-            (level.centre()[axis] + t * level.direction()[axis] - g.origin_mm[axis]) / g.spacing_mm[axis]));
+        index[axis] = static_cast<int>(std::lround((point[axis] - g.origin_mm[axis]) / g.spacing_mm[axis]));
       if (flat) index[2] = 0;
       if (index[0] < 0 || index[0] >= s.x || index[1] < 0 || index[1] >= s.y || index[2] < 0 || index[2] >= s.z) continue;
       if (allowed != nullptr && allowed->at(index[0], index[1], index[2]) == 0) continue;
@@ -174,6 +198,11 @@ RenderedObject render(const Spheroid& object, float contrast, std::uint16_t id, 
 RenderedObject render(const Capsule& object, float contrast, std::uint16_t id, FloatImage& image,
                       InstanceImage& instances, const LabelImage* allowed) {
   return render_level(CapsuleLevel{object}, contrast, id, image, instances, allowed);
+}
+
+RenderedObject render(const Tube& object, float contrast, std::uint16_t id, FloatImage& image, InstanceImage& instances,
+                      const LabelImage* allowed) {
+  return render_level(TubeLevel(object), contrast, id, image, instances, allowed);
 }
 
 double segment_distance(const Vec& a0, const Vec& a1, const Vec& b0, const Vec& b1) {

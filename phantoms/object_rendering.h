@@ -9,6 +9,7 @@
 #include <cstdint>
 
 #include "phantoms/image.h"
+#include "phantoms/tube.h"
 
 namespace frugal {
 
@@ -40,6 +41,9 @@ struct RenderedObject {
 RenderedObject render(const Spheroid& object, float contrast, std::uint16_t id, FloatImage& image,
                       InstanceImage& instances, const LabelImage* allowed = nullptr);
 RenderedObject render(const Capsule& object, float contrast, std::uint16_t id, FloatImage& image,
+                      InstanceImage& instances, const LabelImage* allowed = nullptr);
+// A curved tapered tube (tube.h); a thin one that falls apart is joined along its centreline.
+RenderedObject render(const Tube& object, float contrast, std::uint16_t id, FloatImage& image,
                       InstanceImage& instances, const LabelImage* allowed = nullptr);
 
 // Shortest distance between the segments a0-a1 and b0-b1 (for keeping objects apart).
