@@ -56,13 +56,16 @@ void pose_and_draw_objects(RestSubject& rest, const RigidPose& pose, float outsi
       shape.spheroid.direction = pose.rotate(shape.spheroid.direction);
       shape.capsule.centre_mm = pose.apply(shape.capsule.centre_mm);
       shape.capsule.direction = pose.rotate(shape.capsule.direction);
+      if (shape.is_tube) shape.tube = shape.tube.moved(pose);
     }
   }
   for (std::size_t n = 0; n < rest.shapes.size(); ++n) {
     const ObjectShape& shape = rest.shapes[n];
     const auto id = static_cast<std::uint16_t>(n + 1);
     const LabelImage* allowed = shape.clip_to_field ? &rest.field : nullptr;
-    if (shape.is_capsule)
+    if (shape.is_tube)
+      render(shape.tube, shape.shown_contrast, id, rest.signal, rest.instances, allowed);
+    else if (shape.is_capsule)
       render(shape.capsule, shape.shown_contrast, id, rest.signal, rest.instances, allowed);
     else
       render(shape.spheroid, shape.shown_contrast, id, rest.signal, rest.instances, allowed);

@@ -17,8 +17,10 @@ namespace frugal {
 // An analytic object waiting to be drawn; its id is its 1-based place in truth.objects.
 struct ObjectShape {
   bool is_capsule = false;
+  bool is_tube = false;
   Spheroid spheroid;
   Capsule capsule;
+  Tube tube;
   float shown_contrast = 0.0F;  // contrast times the bias field at the centre
   bool clip_to_field = false;
 };

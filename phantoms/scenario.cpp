@@ -40,6 +40,9 @@ std::string validate_geometry(const GeometryOptions& geometry) {
   if (geometry.reference_slice < -1 || geometry.reference_slice >= geometry.size_3d[2])
     return "geometry.reference_slice is " + format_number(geometry.reference_slice) +
            "; allowed -1 (middle) or 0.." + format_number(geometry.size_3d[2] - 1);
+  for (double size : geometry.anatomy_size_mm)
+    if (!(size >= 10.0 && size <= 1000.0))
+      return "geometry.anatomy_size_mm entry " + format_number(size) + " is out of range; allowed 10..1000 mm";
   return {};
 }
 
@@ -73,9 +76,38 @@ std::string validate_streaks(const StreaksOptions& s, int dims) {
     return "streaks.orientation.axis has no in-plane (x, y) part, which a 2D scenario needs";
   if (!(s.orientation.spread_deg >= 0.0 && s.orientation.spread_deg <= 180.0))
     return "streaks.orientation.spread_deg is " + format_number(s.orientation.spread_deg) + "; allowed 0..180";
+  if (!(s.line_bend_deg >= 0.0 && s.line_bend_deg <= 90.0))
+    return "streaks.line_bend_deg is " + format_number(s.line_bend_deg) + "; allowed 0..90";
+  if (!(s.line_taper >= 0.1 && s.line_taper <= 1.0))
+    return "streaks.line_taper is " + format_number(s.line_taper) + "; allowed 0.1..1 (end width / start width)";
+  if (!(s.placement.decay_mm >= 0.5 && s.placement.decay_mm <= 100.0))
+    return "streaks.placement.decay_mm is " + format_number(s.placement.decay_mm) + "; allowed 0.5..100 mm";
+  if (!(s.placement.radial_spread_deg >= 0.0 && s.placement.radial_spread_deg <= 90.0))
+    return "streaks.placement.radial_spread_deg is " + format_number(s.placement.radial_spread_deg) + "; allowed 0..90";
+  if (s.placement.orientation == LesionOrientation::radial && !s.orientation.isotropic)
+    return "streaks.placement.orientation is radial, which sets every lesion's direction; "
+           "streaks.orientation.isotropic must then stay true";
   for (double intensity : {s.white_matter, s.grey_matter, s.csf})
     if (!(intensity >= 0.0 && intensity <= 100.0))
       return "streaks.tissue intensities must lie in 0..100 (white_matter, grey_matter, csf)";
+  return {};
+}
+
+std::string validate_tree(const TreeOptions& t) {
+  const auto range = [](const char* key, double value, double low, double high, const char* unit) {
+    if (value >= low && value <= high) return std::string();
+    return std::string("voids.tree.") + key + " is " + format_number(value) + "; allowed " + format_number(low) + ".." +
+           format_number(high) + unit;
+  };
+  for (const std::string& error :
+       {range("generations", t.generations, 0, 8, ""), range("vessel_trunks", t.vessel_trunks, 0, 12, ""),
+        range("airway_trunks", t.airway_trunks, 0, 12, ""), range("trunk_length_mm", t.trunk_length_mm, 2, 300, " mm"),
+        range("vessel_radius_mm", t.vessel_radius_mm, 0.1, 15, " mm"),
+        range("airway_radius_mm", t.airway_radius_mm, 0.1, 15, " mm"),
+        range("airway_wall_fraction", t.airway_wall_fraction, 0.05, 0.9, ""),
+        range("min_radius_mm", t.min_radius_mm, 0.05, 10, " mm"), range("bend_deg", t.bend_deg, 0, 90, ""),
+        range("vessel_hu", t.vessel_hu, -500, 3000, " HU")})
+    if (!error.empty()) return error;
   return {};
 }
 
@@ -97,6 +129,10 @@ std::string validate_voids(const VoidsOptions& v) {
     if (!(hu >= -1000.0 && hu < v.parenchyma_hu))
       return "voids.void_hu." + to_string(pattern) + " is " + format_number(hu) +
              "; allowed -1000 HU up to (not including) voids.parenchyma_hu";
+  if (std::string error = validate_tree(v.tree); !error.empty()) return error;
+  if (v.tree.generations > 0 && !(v.tree.vessel_hu > v.parenchyma_hu))
+    return "voids.tree.vessel_hu is " + format_number(v.tree.vessel_hu) +
+           "; vessels are denser than the parenchyma: allowed above voids.parenchyma_hu";
   return {};
 }
 
@@ -168,6 +204,7 @@ ScenarioOptions default_scenario(Family family) {
     options.noise.sigma = 15.0;  // HU
     options.noise.correlation_mm = 0.7;
     options.bias_field.amplitude = 0.0;
+    options.geometry.anatomy_size_mm = {320.0, 220.0, 280.0};  // adult chest, from memory
   } else {
     options.name = "streaks";
   }
@@ -207,5 +244,17 @@ std::string to_string(VoidPattern pattern) {
 std::string to_string(VoidsTarget target) {
   return target == VoidsTarget::affected_fraction ? "affected_fraction" : "densitometry";
 }
+
+std::string to_string(AnatomyScale scale) { return scale == AnatomyScale::fit_image ? "fit_image" : "physical"; }
+
+std::string to_string(LesionDensity density) {
+  return density == LesionDensity::uniform ? "uniform" : "periventricular";
+}
+
+std::string to_string(LesionOrientation orientation) {
+  return orientation == LesionOrientation::free ? "free" : "radial";
+}
+
+std::string to_string(LineShape shape) { return shape == LineShape::straight ? "straight" : "tube"; }
 
 }  // namespace frugal

@@ -18,6 +18,17 @@ enum class VoidPattern { scattered_holes, diffuse_thinning, confluent_spaces, pe
 // What a voids subject's drawn target value means: the extent of the low-density region, or
 // the densitometry value (fraction of the field below the threshold) that the generator matches.
 enum class VoidsTarget { affected_fraction, densitometry };
+// How big the anatomy is: a fixed share of the image (the head or chest grows with the image in
+// voxels), or a size in mm that the image samples at its spacing (a smaller image is a coarser
+// sampling or a crop of the same head or chest, never a shrunken one).
+enum class AnatomyScale { fit_image, physical };
+// Where lesion centres go: uniform in the white and grey matter, or concentrated near the
+// ventricle walls (deep, periventricular tissue).
+enum class LesionDensity { uniform, periventricular };
+// Which way lesions point: as streaks.orientation says, or outward from the nearer ventricle.
+enum class LesionOrientation { free, radial };
+// Vessel-like look-alikes: straight capsules, or smooth curved tubes with tapering width.
+enum class LineShape { straight, tube };
 
 struct GeometryOptions {
   int dims = 2;
@@ -25,6 +36,10 @@ struct GeometryOptions {
   std::array<int, 3> size_3d{64, 64, 64};
   std::array<double, 3> spacing_mm{1.0, 1.0, 1.0};  // 2D uses the third entry as slice thickness
   int reference_slice = -1;                         // 3D: slice for per-slice counts; -1 = middle
+  AnatomyScale anatomy_scale = AnatomyScale::fit_image;
+  // Full extent x, y, z of the head (streaks) or the body (voids) when physical; default_scenario()
+  // sets the voids value. Typical adult intracranial extent, from memory.
+  std::array<double, 3> anatomy_size_mm{140.0, 175.0, 120.0};
 };
 
 struct NoiseOptions {
@@ -60,6 +75,13 @@ struct ClusteringOptions {
   double radius_mm = 20.0;
 };
 
+struct PlacementOptions {
+  LesionDensity density = LesionDensity::uniform;
+  double decay_mm = 6.0;  // periventricular: density falls as exp(-distance / decay) from the ventricle wall
+  LesionOrientation orientation = LesionOrientation::free;
+  double radial_spread_deg = 10.0;  // radial: SD of the angle between a lesion and the radial direction
+};
+
 struct StreaksOptions {
   CountDistribution count{CountDistribution::Kind::poisson, 6.0};
   Distribution length_mm = Distribution::uniform_between(3.0, 10.0);
@@ -75,8 +97,26 @@ struct StreaksOptions {
   Distribution line_length_mm = Distribution::uniform_between(25.0, 50.0);
   Distribution line_width_mm = Distribution::uniform_between(0.6, 1.0);
   Distribution line_contrast = Distribution::uniform_between(0.2, 0.5);
+  LineShape line_shape = LineShape::straight;
+  double line_bend_deg = 30.0;  // tube: each of its three arcs turns by an angle uniform in +-this
+  double line_taper = 0.5;      // tube: end width / start width (line_width_mm is the start width)
+  PlacementOptions placement;
   // FLAIR-like: grey matter a little brighter than white matter, CSF dark, lesions bright.
   double white_matter = 1.0, grey_matter = 1.15, csf = 0.3;
+};
+
+// A branching vessel tree and airway tree growing from the hilum of each lung (voids.tree).
+struct TreeOptions {
+  int generations = 0;              // branchings from a trunk to its finest branches; 0 = no tree
+  int vessel_trunks = 3;            // vessel trees per lung
+  int airway_trunks = 2;            // airway trees per lung
+  double trunk_length_mm = 30.0;    // each generation is 0.75 times as long as its parent
+  double vessel_radius_mm = 2.5;    // trunk radius; children follow Murray's law
+  double airway_radius_mm = 3.0;    // outer trunk radius (wall included)
+  double airway_wall_fraction = 0.3;  // wall thickness / outer radius; the rest is air-filled lumen
+  double min_radius_mm = 0.5;       // thinner branches are not drawn (below what CT resolves)
+  double bend_deg = 20.0;           // each branch turns by an angle uniform in +-this
+  double vessel_hu = 40.0;          // vessels and airway walls (blood and soft tissue)
 };
 
 struct VoidsOptions {
@@ -93,6 +133,7 @@ struct VoidsOptions {
                                         {VoidPattern::diffuse_thinning, -965.0},
                                         {VoidPattern::confluent_spaces, -995.0},
                                         {VoidPattern::peripheral_band, -975.0}};
+  TreeOptions tree;
 };
 
 struct ScenarioOptions {
@@ -119,5 +160,9 @@ std::string to_string(NoiseModel model);
 std::string to_string(ConfounderFactor factor);
 std::string to_string(VoidPattern pattern);
 std::string to_string(VoidsTarget target);
+std::string to_string(AnatomyScale scale);
+std::string to_string(LesionDensity density);
+std::string to_string(LesionOrientation orientation);
+std::string to_string(LineShape shape);
 
 }  // namespace frugal

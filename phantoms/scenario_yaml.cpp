@@ -19,6 +19,13 @@ const std::map<std::string, VoidPattern> kPatterns{{"scattered_holes", VoidPatte
                                                    {"peripheral_band", VoidPattern::peripheral_band}};
 const std::map<std::string, VoidsTarget> kTargets{{"affected_fraction", VoidsTarget::affected_fraction},
                                                   {"densitometry", VoidsTarget::densitometry}};
+const std::map<std::string, AnatomyScale> kAnatomyScales{{"fit_image", AnatomyScale::fit_image},
+                                                          {"physical", AnatomyScale::physical}};
+const std::map<std::string, LesionDensity> kDensities{{"uniform", LesionDensity::uniform},
+                                                      {"periventricular", LesionDensity::periventricular}};
+const std::map<std::string, LesionOrientation> kOrientations{{"free", LesionOrientation::free},
+                                                             {"radial", LesionOrientation::radial}};
+const std::map<std::string, LineShape> kLineShapes{{"straight", LineShape::straight}, {"tube", LineShape::tube}};
 const std::map<std::string, Distribution::Kind> kDistributions{{"fixed", Distribution::Kind::fixed},
                                                                {"uniform", Distribution::Kind::uniform},
                                                                {"normal", Distribution::Kind::normal},
@@ -119,6 +126,17 @@ void read_streaks(YamlFields& fields, StreaksOptions& s) {
   read_distribution(fields, "line_length_mm", s.line_length_mm);
   read_distribution(fields, "line_width_mm", s.line_width_mm);
   read_distribution(fields, "line_contrast", s.line_contrast);
+  fields.read_choice("line_shape", kLineShapes, s.line_shape);
+  fields.read("line_bend_deg", s.line_bend_deg);
+  fields.read("line_taper", s.line_taper);
+  if (fields.has("placement")) {
+    YamlFields placement = fields.child("placement");
+    placement.read_choice("density", kDensities, s.placement.density);
+    placement.read("decay_mm", s.placement.decay_mm);
+    placement.read_choice("orientation", kOrientations, s.placement.orientation);
+    placement.read("radial_spread_deg", s.placement.radial_spread_deg);
+    placement.finish();
+  }
   if (fields.has("tissue")) {
     YamlFields tissue = fields.child("tissue");
     tissue.read("white_matter", s.white_matter);
@@ -154,6 +172,21 @@ void read_voids(YamlFields& fields, VoidsOptions& v) {
     for (auto& [pattern, hu] : v.void_hu) levels.read(to_string(pattern), hu);
     levels.finish();
   }
+  if (fields.has("tree")) {
+    YamlFields tree = fields.child("tree");
+    TreeOptions& t = v.tree;
+    tree.read("generations", t.generations);
+    tree.read("vessel_trunks", t.vessel_trunks);
+    tree.read("airway_trunks", t.airway_trunks);
+    tree.read("trunk_length_mm", t.trunk_length_mm);
+    tree.read("vessel_radius_mm", t.vessel_radius_mm);
+    tree.read("airway_radius_mm", t.airway_radius_mm);
+    tree.read("airway_wall_fraction", t.airway_wall_fraction);
+    tree.read("min_radius_mm", t.min_radius_mm);
+    tree.read("bend_deg", t.bend_deg);
+    tree.read("vessel_hu", t.vessel_hu);
+    tree.finish();
+  }
   fields.finish();
 }
 
@@ -173,6 +206,8 @@ ScenarioOptions read_scenario(const YAML::Node& root, const std::string& file) {
     geometry.read("size_3d", options.geometry.size_3d);
     geometry.read("spacing_mm", options.geometry.spacing_mm);
     geometry.read("reference_slice", options.geometry.reference_slice);
+    geometry.read_choice("anatomy_scale", kAnatomyScales, options.geometry.anatomy_scale);
+    geometry.read("anatomy_size_mm", options.geometry.anatomy_size_mm);
     geometry.finish();
   }
   fields.read("psf_fwhm_mm", options.psf_fwhm_mm);
@@ -272,6 +307,36 @@ YAML::Node flow_list(const Array& values) {
   return node;
 }
 
+// The keys added with anatomy (physical scale, lesion placement, tube-shaped look-alikes, the
+// lung tree) are written only when one of them differs from its default: a scenario that does
+// not use them resolves to the same text as before they existed, so its phantom sets, label sets
+// and study cell keys stay byte for byte the same. Reading treats an absent key as its default,
+// so the round trip holds either way.
+bool anatomy_geometry_is_default(const ScenarioOptions& o) {
+  const GeometryOptions defaults = default_scenario(o.family).geometry;
+  return o.geometry.anatomy_scale == defaults.anatomy_scale && o.geometry.anatomy_size_mm == defaults.anatomy_size_mm;
+}
+
+bool placement_is_default(const PlacementOptions& p) {
+  const PlacementOptions defaults;
+  return p.density == defaults.density && p.decay_mm == defaults.decay_mm && p.orientation == defaults.orientation &&
+         p.radial_spread_deg == defaults.radial_spread_deg;
+}
+
+bool line_shape_is_default(const StreaksOptions& s) {
+  const StreaksOptions defaults;
+  return s.line_shape == defaults.line_shape && s.line_bend_deg == defaults.line_bend_deg &&
+         s.line_taper == defaults.line_taper;
+}
+
+bool tree_is_default(const TreeOptions& t) {
+  const TreeOptions d;
+  return t.generations == d.generations && t.vessel_trunks == d.vessel_trunks && t.airway_trunks == d.airway_trunks &&
+         t.trunk_length_mm == d.trunk_length_mm && t.vessel_radius_mm == d.vessel_radius_mm &&
+         t.airway_radius_mm == d.airway_radius_mm && t.airway_wall_fraction == d.airway_wall_fraction &&
+         t.min_radius_mm == d.min_radius_mm && t.bend_deg == d.bend_deg && t.vessel_hu == d.vessel_hu;
+}
+
 }  // namespace
 
 std::string scenario_to_yaml(const ScenarioOptions& o) {
@@ -283,6 +348,10 @@ std::string scenario_to_yaml(const ScenarioOptions& o) {
   root["geometry"]["size_3d"] = flow_list(o.geometry.size_3d);
   root["geometry"]["spacing_mm"] = flow_list(o.geometry.spacing_mm);
   root["geometry"]["reference_slice"] = o.geometry.reference_slice;
+  if (!anatomy_geometry_is_default(o)) {
+    root["geometry"]["anatomy_scale"] = to_string(o.geometry.anatomy_scale);
+    root["geometry"]["anatomy_size_mm"] = flow_list(o.geometry.anatomy_size_mm);
+  }
   root["psf_fwhm_mm"] = o.psf_fwhm_mm;
   root["noise"]["model"] = to_string(o.noise.model);
   root["noise"]["sigma"] = o.noise.sigma;
@@ -314,6 +383,17 @@ std::string scenario_to_yaml(const ScenarioOptions& o) {
     node["line_length_mm"] = distribution_node(s.line_length_mm);
     node["line_width_mm"] = distribution_node(s.line_width_mm);
     node["line_contrast"] = distribution_node(s.line_contrast);
+    if (!line_shape_is_default(s)) {
+      node["line_shape"] = to_string(s.line_shape);
+      node["line_bend_deg"] = s.line_bend_deg;
+      node["line_taper"] = s.line_taper;
+    }
+    if (!placement_is_default(s.placement)) {
+      node["placement"]["density"] = to_string(s.placement.density);
+      node["placement"]["decay_mm"] = s.placement.decay_mm;
+      node["placement"]["orientation"] = to_string(s.placement.orientation);
+      node["placement"]["radial_spread_deg"] = s.placement.radial_spread_deg;
+    }
     node["tissue"]["white_matter"] = s.white_matter;
     node["tissue"]["grey_matter"] = s.grey_matter;
     node["tissue"]["csf"] = s.csf;
@@ -332,6 +412,21 @@ std::string scenario_to_yaml(const ScenarioOptions& o) {
     for (VoidPattern pattern : v.patterns) patterns.push_back(to_string(pattern));
     node["patterns"] = flow_list(patterns);
     for (const auto& [pattern, hu] : v.void_hu) node["void_hu"][to_string(pattern)] = hu;
+    if (!tree_is_default(v.tree)) {
+      const TreeOptions& t = v.tree;
+      YAML::Node tree;
+      tree["generations"] = t.generations;
+      tree["vessel_trunks"] = t.vessel_trunks;
+      tree["airway_trunks"] = t.airway_trunks;
+      tree["trunk_length_mm"] = t.trunk_length_mm;
+      tree["vessel_radius_mm"] = t.vessel_radius_mm;
+      tree["airway_radius_mm"] = t.airway_radius_mm;
+      tree["airway_wall_fraction"] = t.airway_wall_fraction;
+      tree["min_radius_mm"] = t.min_radius_mm;
+      tree["bend_deg"] = t.bend_deg;
+      tree["vessel_hu"] = t.vessel_hu;
+      node["tree"] = tree;
+    }
     root["voids"] = node;
   }
   YAML::Emitter out;

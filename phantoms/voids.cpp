@@ -9,6 +9,7 @@
 #include "phantoms/image_ops.h"
 #include "phantoms/noise.h"
 #include "phantoms/user_error.h"
+#include "phantoms/vessel_tree.h"
 
 namespace frugal {
 
@@ -42,6 +43,17 @@ struct Anatomy {
   FloatImage lung_radius;      // normalised radius within its own lung, for the peripheral band
   std::vector<std::size_t> field_voxels;
   double parenchyma_hu = -850.0;
+  // The vessel and airway tree (voids.tree), when there is one. The low-density region is painted
+  // only on the parenchyma (field voxels whose centre is in no branch): airways and vessels are
+  // lung, not disease, so the truth's affected fraction leaves them out.
+  bool has_tree = false;
+  LungTree tree;
+  TreeRaster tree_raster;
+  LabelImage parenchyma;                     // 1 where the region may go
+  std::vector<std::size_t> parenchyma_voxels;
+
+  const LabelImage& paintable() const { return has_tree ? parenchyma : field; }
+  const std::vector<std::size_t>& paintable_voxels() const { return has_tree ? parenchyma_voxels : field_voxels; }
 };
 
 FloatImage smooth_noise(const Geometry& geometry, double scale_mm, RandomStream& random) {
@@ -87,8 +99,13 @@ Anatomy draw_anatomy(const ScenarioOptions& scenario, const Shape& shape, double
   Anatomy a;
   a.flat = shape.z == 1;
   a.geometry = centred_geometry(shape, scenario.geometry.spacing_mm);
-  const Vec extent{shape.x * a.geometry.spacing_mm[0], shape.y * a.geometry.spacing_mm[1],
-                   shape.z * a.geometry.spacing_mm[2]};
+  // The frame the chest is drawn in: the image's extent, or (physical scale) the extent whose
+  // body ellipse (47%, 40%, 48% of it as semi-axes) has the full size anatomy_size_mm.
+  const Vec& size_mm = scenario.geometry.anatomy_size_mm;
+  const Vec extent = scenario.geometry.anatomy_scale == AnatomyScale::physical
+                         ? Vec{size_mm[0] / 0.94, size_mm[1] / 0.80, size_mm[2] / 0.96}
+                         : Vec{shape.x * a.geometry.spacing_mm[0], shape.y * a.geometry.spacing_mm[1],
+                               shape.z * a.geometry.spacing_mm[2]};
   a.body.semi_axes = {0.47 * extent[0], 0.40 * extent[1], 0.48 * extent[2]};
   for (int side = 0; side < 2; ++side) {
     Ellipsoid& lung = a.lungs[side];
@@ -114,16 +131,35 @@ Anatomy draw_anatomy(const ScenarioOptions& scenario, const Shape& shape, double
   return a;
 }
 
+void add_tree(const TreeOptions& options, RandomStream& random, Anatomy& a) {
+  LungOutline lungs[2];
+  for (int side = 0; side < 2; ++side) lungs[side] = {a.lungs[side].centre, a.lungs[side].semi_axes};
+  a.tree = grow_lung_tree(options, lungs, a.flat, random);
+  a.tree_raster = rasterise_tree(a.tree, a.geometry, a.field);
+  a.has_tree = true;
+  a.parenchyma = a.field;
+  for (std::size_t n : a.field_voxels) {
+    if (a.tree_raster.where.data()[n] != kNoTree)
+      a.parenchyma.data()[n] = 0;
+    else
+      a.parenchyma_voxels.push_back(n);
+  }
+}
+
 // Paints balls of random radius at random field positions until `target` of the field is covered.
 int paint_balls(const Anatomy& a, double target, double min_radius_mm, double max_radius_mm,
                 RandomStream& random, InstanceImage& region) {
-  const auto wanted = static_cast<std::int64_t>(std::ceil(target * static_cast<double>(a.field_voxels.size())));
+  // The extent is a share of the whole field; the region covers only paintable voxels.
+  const std::vector<std::size_t>& seeds = a.paintable_voxels();
+  const LabelImage& paintable = a.paintable();
+  const auto wanted = std::min(static_cast<std::int64_t>(std::ceil(target * static_cast<double>(a.field_voxels.size()))),
+                               static_cast<std::int64_t>(seeds.size()));
   std::int64_t covered = 0;
   int balls = 0, painted = 0;  // drawn, and those that added voxels
   const Geometry& g = a.geometry;
   while (covered < wanted && balls < 100000) {
     const std::size_t seed_voxel =
-        a.field_voxels[static_cast<std::size_t>(random.uniform_int(0, static_cast<std::int64_t>(a.field_voxels.size()) - 1))];
+        seeds[static_cast<std::size_t>(random.uniform_int(0, static_cast<std::int64_t>(seeds.size()) - 1))];
     const double radius = random.uniform(min_radius_mm, max_radius_mm);
     const int plane = g.shape.x * g.shape.y;
     const int ck = static_cast<int>(seed_voxel / static_cast<std::size_t>(plane));
@@ -142,7 +178,7 @@ int paint_balls(const Anatomy& a, double target, double min_radius_mm, double ma
           const double distance2 = dx * dx + dy * dy + dz * dz;
           if (distance2 > radius * radius) continue;
           const std::size_t n = region.index(i, j, k);
-          if (a.field.data()[n] == 0 || region.data()[n] != 0) continue;
+          if (paintable.data()[n] == 0 || region.data()[n] != 0) continue;
           fresh.emplace_back(distance2, n);
         }
     const auto missing = static_cast<std::size_t>(wanted - covered);
@@ -160,11 +196,13 @@ int paint_balls(const Anatomy& a, double target, double min_radius_mm, double ma
 
 // Marks the `target` share of field voxels with the highest score.
 void mark_top_share(const Anatomy& a, const FloatImage& score, double target, InstanceImage& region) {
-  const auto wanted = static_cast<std::size_t>(std::llround(target * static_cast<double>(a.field_voxels.size())));
+  const std::vector<std::size_t>& candidates = a.paintable_voxels();
+  const auto wanted = std::min(static_cast<std::size_t>(std::llround(target * static_cast<double>(a.field_voxels.size()))),
+                               candidates.size());
   if (wanted == 0) return;
   std::vector<std::pair<float, std::size_t>> ranked;
-  ranked.reserve(a.field_voxels.size());
-  for (std::size_t v : a.field_voxels) ranked.emplace_back(score.data()[v], v);
+  ranked.reserve(candidates.size());
+  for (std::size_t v : candidates) ranked.emplace_back(score.data()[v], v);
   // Ties are broken by voxel index, so the region is exactly the requested size.
   std::nth_element(ranked.begin(), ranked.begin() + static_cast<std::ptrdiff_t>(wanted - 1), ranked.end(),
                    [](const auto& x, const auto& y) { return x.first > y.first || (x.first == y.first && x.second < y.second); });
@@ -200,7 +238,8 @@ int build_region(const Anatomy& a, VoidPattern pattern, double target, const Pat
 // the body outline is evaluated analytically. Drawing after the pose keeps the region edges as
 // sharp in a rescan as in the first scan.
 FloatImage render_signal(const Anatomy& a, const VoidsOptions& v, VoidPattern pattern, const LabelImage& field,
-                         const InstanceImage& region, const FloatImage& texture, const RigidPose& pose) {
+                         const InstanceImage& region, const FloatImage& texture, const RigidPose& pose,
+                         const TreeRaster* tree) {
   FloatImage signal(a.geometry, kAirHu);
   const float void_hu = static_cast<float>(v.void_hu.at(pattern));
   for (int k = 0; k < a.geometry.shape.z; ++k)
@@ -211,6 +250,12 @@ FloatImage render_signal(const Anatomy& a, const VoidsOptions& v, VoidPattern pa
           const float t = texture.data()[n];
           signal.data()[n] = region.data()[n] != 0 ? void_hu + static_cast<float>(kVoidTexture) * t
                                                    : static_cast<float>(a.parenchyma_hu) + t;
+          if (tree != nullptr) {
+            // Partial volume: air in the lumen, soft tissue in vessels and walls, the rest as drawn.
+            const float air = tree->air.data()[n], tissue = std::max(tree->tissue.data()[n], air);
+            signal.data()[n] = air * kAirHu + (tissue - air) * static_cast<float>(v.tree.vessel_hu) +
+                               (1.0F - tissue) * signal.data()[n];
+          }
         } else if (a.body.radius_squared(pose.inverse(a.geometry.world_mm(i, j, k)), a.flat) <= 1.0) {
           signal.data()[n] = static_cast<float>(v.body_hu);
         }
@@ -247,7 +292,11 @@ Subject generate_voids(const ScenarioOptions& scenario, std::uint64_t seed, int 
   const double target = v.target.sample(pattern_random);
   const Confounder confounder =
       draw_confounder(scenario.confounder, Family::voids, target, v.target.expected(), v.target.spread(), nuisance);
-  const Anatomy anatomy = draw_anatomy(scenario, shape, confounder.size_factor, confounder.shift_hu, anatomy_random);
+  Anatomy anatomy = draw_anatomy(scenario, shape, confounder.size_factor, confounder.shift_hu, anatomy_random);
+  if (v.tree.generations > 0) {
+    RandomStream tree_random(seed, subject, StreamPurpose::anatomy, 1);  // its own stream: nothing else shifts
+    add_tree(v.tree, tree_random, anatomy);
+  }
   // Only the chosen pattern's field is drawn; each from its own stream, so the choice of pattern
   // does not shift any other random number.
   PatternFields fields;
@@ -269,12 +318,22 @@ Subject generate_voids(const ScenarioOptions& scenario, std::uint64_t seed, int 
     if (pose.is_identity()) {
       rest.field = anatomy.field;
       rest.instances = region;
-      rest.signal = render_signal(anatomy, v, pattern, rest.field, rest.instances, anatomy.texture, pose);
+      rest.signal = render_signal(anatomy, v, pattern, rest.field, rest.instances, anatomy.texture, pose,
+                                  anatomy.has_tree ? &anatomy.tree_raster : nullptr);
     } else {
       rest.field = resample_nearest(anatomy.field, pose);
       rest.instances = resample_nearest(region, pose);
       const FloatImage texture = resample_linear(anatomy.texture, pose, 0.0F);  // smooth, so linear is faithful
-      rest.signal = render_signal(anatomy, v, pattern, rest.field, rest.instances, texture, pose);
+      if (anatomy.has_tree) {
+        // The tree is drawn again in the new pose (sharp, like the first scan), and the moved
+        // region gives up the voxels the moved tree now holds.
+        const TreeRaster moved = rasterise_tree(anatomy.tree.moved(pose), anatomy.geometry, rest.field);
+        for (std::size_t n = 0; n < rest.instances.size(); ++n)
+          if (moved.where.data()[n] != kNoTree) rest.instances.data()[n] = 0;
+        rest.signal = render_signal(anatomy, v, pattern, rest.field, rest.instances, texture, pose, &moved);
+      } else {
+        rest.signal = render_signal(anatomy, v, pattern, rest.field, rest.instances, texture, pose, nullptr);
+      }
     }
     RandomStream noise(seed, subject, StreamPurpose::noise, static_cast<std::uint64_t>(for_rescan));
     acquire(rest.signal, scenario, 1.0, noise);

@@ -4,7 +4,9 @@
 
 #include <opencv2/imgproc.hpp>
 
+#include <algorithm>
 #include <cmath>
+#include <cstdio>
 #include <set>
 
 #include "phantoms/image_views.h"
@@ -158,6 +160,97 @@ TEST(Phantom, VoidsExtentModeHitsTheAffectedFraction) {
   }
 }
 
+
+// Physical scale: the head (streaks) and the lungs (voids) have the same extent in mm whether a
+// scenario samples them at 128 x 128 or at 64 x 64 with twice the spacing, and a larger image at
+// the same spacing only shows more air around them. The fitted default instead grows them with
+// the image. Extent: the field's widest row and tallest column in mm; equal within one coarse
+// voxel (sampling tolerance, common practice, no source).
+TEST(Phantom, PhysicalScaleKeepsTheAnatomyInMillimetres) {
+  const auto extent_mm = [](const Subject& g) {
+    const Geometry& geometry = g.labels.geometry();
+    int low[2] = {1 << 30, 1 << 30}, high[2] = {-1, -1};
+    for (int j = 0; j < g.labels.shape().y; ++j)
+      for (int i = 0; i < g.labels.shape().x; ++i) {
+        if (g.labels.at(i, j, 0) < kField) continue;
+        low[0] = std::min(low[0], i), high[0] = std::max(high[0], i);
+        low[1] = std::min(low[1], j), high[1] = std::max(high[1], j);
+      }
+    return std::array<double, 2>{(high[0] - low[0] + 1) * geometry.spacing_mm[0], (high[1] - low[1] + 1) * geometry.spacing_mm[1]};
+  };
+  for (Family family : {Family::streaks, Family::voids}) {
+    const double fine = family == Family::streaks ? 1.5 : 2.8;  // 192 mm for a 140 x 175 mm head; 358 mm for a 320 mm chest
+    const auto draw = [&](int size, double spacing, AnatomyScale scale) {
+      ScenarioOptions s = default_scenario(family);
+      s.geometry.size_2d = {size, size};
+      s.geometry.spacing_mm = {spacing, spacing, spacing};
+      s.geometry.anatomy_scale = scale;
+      return extent_mm(generate_subject(s, 12, 3));
+    };
+    const auto at_128 = draw(128, fine, AnatomyScale::physical), at_64 = draw(64, 2.0 * fine, AnatomyScale::physical);
+    const auto at_160 = draw(160, fine, AnatomyScale::physical);
+    std::printf("%s physical: %.1f x %.1f mm at 128^2, %.1f x %.1f mm at 64^2, %.1f x %.1f mm at 160^2\n",
+                to_string(family).c_str(), at_128[0], at_128[1], at_64[0], at_64[1], at_160[0], at_160[1]);
+    for (int axis = 0; axis < 2; ++axis) {
+      EXPECT_NEAR(at_64[axis], at_128[axis], 2.0 * fine) << to_string(family) << " axis " << axis << " seed 12";
+      EXPECT_NEAR(at_160[axis], at_128[axis], fine) << to_string(family) << " axis " << axis << " seed 12";
+    }
+    if (family == Family::streaks) {
+      // The head is the configured adult size times the per-subject factor 0.9..1.0.
+      EXPECT_GE(at_128[0], 0.9 * 140.0 - fine);
+      EXPECT_LE(at_128[0], 140.0 + fine);
+      EXPECT_GE(at_128[1], 0.9 * 175.0 - fine);
+      EXPECT_LE(at_128[1], 175.0 + fine);
+    }
+    const auto fitted_128 = draw(128, fine, AnatomyScale::fit_image), fitted_160 = draw(160, fine, AnatomyScale::fit_image);
+    EXPECT_NEAR(fitted_160[0] / fitted_128[0], 160.0 / 128.0, 0.03) << to_string(family) << " seed 12";
+  }
+}
+
+// Tube-shaped look-alikes: each is one connected component with the line code, never a lesion;
+// its truth records the centreline length drawn, the start width and the exact area of the
+// tapered tube, L (w + taper w) / 2 times the slice thickness (trapezoid, from memory); and it is
+// really curved: some of its voxels lie further from its chord than its half width plus a voxel.
+TEST(Phantom, TubeLookAlikesAreCurvedTaperedAndExactInTruth) {
+  ScenarioOptions s = small(Family::streaks, 2);
+  s.geometry.size_2d = {128, 128};
+  s.streaks.line_shape = LineShape::tube;
+  s.streaks.line_bend_deg = 40.0;
+  s.streaks.line_taper = 0.5;
+  s.streaks.lines = {CountDistribution::Kind::fixed, 0.0, 0.0, 2};
+  int lines = 0, curved = 0;
+  for (int subject = 0; subject < 20; ++subject) {
+    const Subject g = generate_subject(s, 13, subject);
+    const cv::Mat line_mask = slice_view(g.labels) == kLineDistractor;
+    cv::Mat components;
+    int line_records = 0;
+    for (const ObjectRecord& object : g.truth.objects) {
+      if (object.kind != ObjectKind::line_distractor) continue;
+      ++line_records;
+      EXPECT_GE(object.length_mm, 25.0);
+      EXPECT_LE(object.length_mm, 50.0);
+      const double expected_area = object.length_mm * (object.width_mm + 0.5 * object.width_mm) / 2.0;
+      EXPECT_NEAR(object.volume_mm3, expected_area * s.geometry.spacing_mm[2], 1e-9 * expected_area);
+      double furthest = 0.0;
+      for (int j = 0; j < g.labels.shape().y; ++j)
+        for (int i = 0; i < g.labels.shape().x; ++i) {
+          if (g.labels.at(i, j, 0) != kLineDistractor) continue;
+          const auto p = g.labels.geometry().world_mm(i, j, 0);
+          const double dx = p[0] - object.centre_mm[0], dy = p[1] - object.centre_mm[1];
+          const double along = dx * object.direction[0] + dy * object.direction[1];
+          if (std::abs(along) > 0.5 * object.length_mm) continue;
+          const double off = std::abs(dx * object.direction[1] - dy * object.direction[0]);
+          if (off < 8.0) furthest = std::max(furthest, off);  // this line's voxels, not another's
+        }
+      curved += furthest > 0.5 * object.width_mm + 1.0 ? 1 : 0;
+    }
+    lines += line_records;
+    EXPECT_EQ(cv::connectedComponents(line_mask, components, 8) - 1, line_records) << "seed 13 subject " << subject;
+  }
+  std::printf("tube look-alikes: %d of %d visibly curved\n", curved, lines);
+  EXPECT_GE(lines, 30);
+  EXPECT_GE(curved, lines / 2);
+}
 }  // namespace
 }  // namespace frugal
 
