@@ -19,6 +19,7 @@
 
 #include "experiments/learn/learner.h"
 #include "experiments/learn/model_internal.h"
+#include "experiments/learn/train_options_json.h"
 #include "phantoms/regular_file.h"
 #include "phantoms/user_error.h"
 #include "phantoms/whole_file.h"
@@ -28,104 +29,39 @@ namespace {
 
 using nlohmann::json;
 
-constexpr int kCheckpointVersion = 3;  // 3: the SHA-256 trailer
+constexpr int kCheckpointVersion = 4;  // 3: the SHA-256 trailer; 4: the options as train_options_json
 
-// JSON has no infinities: an unbounded field limit is written as null.
-json bound_to_json(double value) { return std::isinf(value) ? json(nullptr) : json(value); }
-double bound_from_json(const json& value, double unbounded) {
-  return value.is_null() ? unbounded : value.get<double>();
-}
-
+// The options go through their one JSON form (train_options_json.h); the rest is what training
+// learned of the data.
 json describe(const TrainedModel::Impl& model) {
-  const auto& lines = model.line_filter;
   return json{
       {"version", kCheckpointVersion},
-      {"strategy", to_string(model.strategy)},
+      {"train", to_json(model.options)},
       {"label_kind", frugal::to_string(model.kind)},
       {"shape", {model.shape.x, model.shape.y, model.shape.z}},
       {"voxel_volume_mm3", model.voxel_volume_mm3},
-      {"network", model.network_file.empty() ? "frugal-unet" : "torchscript"},
-      {"network_file", model.network_file},
-      {"width", model.width},
-      {"depth", model.depth},
-      {"normalization", to_string(model.normalization)},
-      {"channels_last", model.channels_last},
-      {"bfloat16", model.bfloat16},
       {"input_mean", model.input_mean},
       {"input_scale", model.input_scale},
       {"target_mean", model.target_mean},
       {"target_scale", model.target_scale},
-      {"pooling_sharpness", model.pooling_sharpness},
-      {"threshold_hu", model.threshold_hu},
-      {"line_filter",
-       {{"sigmas_mm", lines.filter.sigmas_mm},
-        {"alpha", lines.filter.alpha},
-        {"beta", lines.filter.beta},
-        {"c", lines.filter.c},
-        {"dark_structures", lines.filter.dark_structures},
-        {"threshold_relative", lines.threshold_kind == baselines::ResponseThreshold::relative},
-        {"threshold", lines.threshold},
-        {"connectivity", lines.connectivity},
-        {"min_voxels", lines.min_voxels},
-        {"min_length_mm", lines.min_length_mm},
-        {"max_length_mm", lines.max_length_mm},
-        {"min_elongation", lines.min_elongation}}},
-      {"grading",
-       {{"bin_edges", model.grading.bin_edges},
-        {"perception_sd", model.grading.perception_sd},
-        {"bias", model.grading.bias}}},
-      {"field",
-       {{"low", bound_to_json(model.field.low)},
-        {"high", bound_to_json(model.field.high)},
-        {"drop_border_connected", model.field.drop_border_connected}}},
   };
 }
 
 void read_description(const json& meta, TrainedModel::Impl& model) {
-  model.strategy = strategy_from_string(meta.at("strategy").get<std::string>());
+  update_from_json(meta.at("train"), model.options, "frugal.meta.train");
+  if (const std::string problem = model.options.validate(); !problem.empty())
+    throw UserError("frugal.meta.train." + problem);
   model.kind = label_kind_from_string(meta.at("label_kind").get<std::string>());
   const auto shape = meta.at("shape").get<std::vector<int>>();
   if (shape.size() != 3) throw UserError("frugal.meta: shape must have 3 entries");
   model.shape = Shape{shape[0], shape[1], shape[2]};
   model.voxel_volume_mm3 = meta.at("voxel_volume_mm3").get<double>();
-  model.network_file = meta.at("network_file").get<std::string>();
-  model.width = meta.at("width").get<int>();
-  model.depth = meta.at("depth").get<int>();
-  model.normalization = normalization_from_string(meta.at("normalization").get<std::string>());
-  model.channels_last = meta.at("channels_last").get<bool>();
-  model.bfloat16 = meta.at("bfloat16").get<bool>();
   model.input_mean = meta.at("input_mean").get<double>();
   model.input_scale = meta.at("input_scale").get<double>();
   model.target_mean = meta.at("target_mean").get<double>();
   model.target_scale = meta.at("target_scale").get<double>();
-  model.pooling_sharpness = meta.at("pooling_sharpness").get<double>();
-  model.threshold_hu = meta.at("threshold_hu").get<double>();
-  const json& lines = meta.at("line_filter");
-  model.line_filter.filter.sigmas_mm = lines.at("sigmas_mm").get<std::vector<double>>();
-  model.line_filter.filter.alpha = lines.at("alpha").get<double>();
-  model.line_filter.filter.beta = lines.at("beta").get<double>();
-  model.line_filter.filter.c = lines.at("c").get<double>();
-  model.line_filter.filter.dark_structures = lines.at("dark_structures").get<bool>();
-  model.line_filter.threshold_kind = lines.at("threshold_relative").get<bool>()
-                                         ? baselines::ResponseThreshold::relative
-                                         : baselines::ResponseThreshold::absolute;
-  model.line_filter.threshold = lines.at("threshold").get<double>();
-  model.line_filter.connectivity = lines.at("connectivity").get<int>();
-  model.line_filter.min_voxels = lines.at("min_voxels").get<int>();
-  model.line_filter.min_length_mm = lines.at("min_length_mm").get<double>();
-  model.line_filter.max_length_mm = lines.at("max_length_mm").get<double>();
-  model.line_filter.min_elongation = lines.at("min_elongation").get<double>();
-  const json& grading = meta.at("grading");
-  model.grading.bin_edges = grading.at("bin_edges").get<std::vector<double>>();
-  model.grading.perception_sd = grading.at("perception_sd").get<double>();
-  model.grading.bias = grading.at("bias").get<double>();
-  const json& field = meta.at("field");
-  model.field.low = bound_from_json(field.at("low"), -std::numeric_limits<double>::infinity());
-  model.field.high = bound_from_json(field.at("high"), std::numeric_limits<double>::infinity());
-  model.field.drop_border_connected = field.at("drop_border_connected").get<bool>();
-  if (model.width < 1 || model.depth < 1 || model.shape.x < 1 || model.shape.y < 1 || model.shape.z < 1 ||
-      !(model.input_scale > 0.0))
-    throw UserError("frugal.meta holds an impossible network or image size");
+  if (model.shape.x < 1 || model.shape.y < 1 || model.shape.z < 1 || !(model.input_scale > 0.0))
+    throw UserError("frugal.meta holds an impossible image size or input scale");
 }
 
 // The metadata of a TorchScript network's checkpoint (its extra file), or "" for other files.
@@ -186,7 +122,8 @@ const TrainedModel::Impl& TrainedModel::impl() const {
   if (!impl_) throw UserError("the model is empty: train or load one first");
   return *impl_;
 }
-Strategy TrainedModel::strategy() const { return impl().strategy; }
+Strategy TrainedModel::strategy() const { return impl().options.strategy; }
+const TrainOptions& TrainedModel::options() const { return impl().options; }
 
 void TrainedModel::save(const std::string& path) const {
   const Impl& model = impl();
@@ -236,9 +173,10 @@ TrainedModel TrainedModel::load(const std::string& path) {
     read_description(meta, *model);
     if (!scripted.empty())
       model->network = internal::load_scripted_network(path, model->shape, &bytes);
-    else if (!is_classical(model->strategy))
-      model->network = internal::load_unet_network(archive, model->shape.dims(), model->width, model->depth,
-                                                   model->normalization, model->channels_last);
+    else if (!is_classical(model->options.strategy))
+      model->network =
+          internal::load_unet_network(archive, model->shape.dims(), model->options.width, model->options.depth,
+                                      model->options.normalization, model->options.channels_last);
     if (model->network) model->network->set_training(false);
   } catch (const c10::Error& error) {
     throw UserError(path + ": cannot read the checkpoint (truncated or not a frugal checkpoint): " +

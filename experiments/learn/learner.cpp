@@ -158,19 +158,19 @@ torch::Tensor consistency_loss(Network& network, const TrainedModel::Impl& model
   std::vector<float> target(batch.images.size());
   {
     torch::NoGradGuard no_grad;
-    const auto output =
-        internal::forward_float(network, internal::voxel_tensor(batch.images, batch.size, model), model.bfloat16);
-    const torch::Tensor prediction = internal::activate_map(output.map, model.strategy).contiguous();
+    const auto output = internal::forward_float(network, internal::voxel_tensor(batch.images, batch.size, model),
+                                                model.options.bfloat16);
+    const torch::Tensor prediction = internal::activate_map(output.map, model.options.strategy).contiguous();
     const float* values = prediction.data_ptr<float>();
     for (int i = 0; i < batch.size; ++i)
       warp_linear(values + static_cast<std::size_t>(i) * voxels, target.data() + static_cast<std::size_t>(i) * voxels,
                   batch.grids[static_cast<std::size_t>(i)]);
   }
   const auto output =
-      internal::forward_float(network, internal::voxel_tensor(batch.moved, batch.size, model), model.bfloat16);
-  torch::Tensor moved = internal::activate_map(output.map, model.strategy);
+      internal::forward_float(network, internal::voxel_tensor(batch.moved, batch.size, model), model.options.bfloat16);
+  torch::Tensor moved = internal::activate_map(output.map, model.options.strategy);
   torch::Tensor expected = internal::voxel_tensor(target, batch.size, model);
-  if (model.strategy == Strategy::count_map) {
+  if (model.options.strategy == Strategy::count_map) {
     // Densities are lesions per voxel; compare them per typical lesion area so the term does
     // not vanish next to the count loss.
     const double scale = static_cast<double>(voxels) / std::max(1.0, model.target_mean);
@@ -244,7 +244,7 @@ double mean_of(const std::vector<double>& values) {
 // Everything but the network: what the model records of the options and the data.
 std::unique_ptr<TrainedModel::Impl> describe_model(const TrainingSet& set, const TrainOptions& options) {
   auto model = std::make_unique<TrainedModel::Impl>();
-  model->strategy = options.strategy;
+  model->options = options;
   if (!set.empty()) {
     const auto kinds = set.kinds();
     model->kind = kinds.back();  // mixed: outlines and one weak kind, in either order
@@ -254,24 +254,14 @@ std::unique_ptr<TrainedModel::Impl> describe_model(const TrainingSet& set, const
     model->voxel_volume_mm3 = set.image(0).geometry().voxel_volume_mm3();
   }
   if (!set.empty() || !set.unlabelled().empty()) model->shape = set.shape();
-  model->width = options.width;
-  model->depth = options.depth;
-  model->normalization = options.normalization;
-  model->channels_last = options.channels_last;
-  model->bfloat16 = options.bfloat16;
-  model->network_file = options.network_file;
-  model->pooling_sharpness = options.pooling_sharpness;
-  model->threshold_hu = options.threshold_hu;
-  model->line_filter = options.line_filter;
-  model->grading = options.grading;
-  model->field = options.field;
   return model;
 }
 
 std::unique_ptr<Network> make_network(const TrainedModel::Impl& model) {
-  if (!model.network_file.empty()) return internal::load_scripted_network(model.network_file, model.shape);
-  return internal::make_unet_network(model.shape.dims(), model.width, model.depth, model.normalization,
-                                     model.channels_last);
+  if (!model.options.network_file.empty())
+    return internal::load_scripted_network(model.options.network_file, model.shape);
+  return internal::make_unet_network(model.shape.dims(), model.options.width, model.options.depth,
+                                     model.options.normalization, model.options.channels_last);
 }
 
 }  // namespace

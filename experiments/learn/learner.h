@@ -184,6 +184,7 @@ class TrainedModel {
   ~TrainedModel();
 
   Strategy strategy() const;
+  const TrainOptions& options() const;  // as trained (a loaded model: as its checkpoint records)
   // Writes a checkpoint whole or not at all (".partial" then rename). Throws UserError.
   void save(const std::string& path) const;
   // Throws UserError naming the file when it is missing, truncated or not a frugal checkpoint.

@@ -16,25 +16,17 @@ namespace frugal::learn {
 
 struct TrainedModel::Impl {
   std::shared_ptr<internal::Network> network;  // null for threshold and line-filter
-  Strategy strategy = Strategy::mask;
+  // The options trained with, whole: prediction reads the network's shape, the strategy's
+  // map-to-quantity rule, the grade bins and the field from here, and the checkpoint stores
+  // them through their one JSON form (train_options_json.h).
+  TrainOptions options;
   LabelKind kind = LabelKind::outline;  // the label kind trained on (mixed: the weak kind)
   Shape shape;
   double voxel_volume_mm3 = 1.0;  // of the training images (points' size prior)
-  int width = 8;
-  int depth = 3;
-  Normalization normalization = Normalization::batch;
-  bool channels_last = true;
-  bool bfloat16 = false;
-  std::string network_file;  // the TorchScript module trained, if any
-  double input_mean = 0.0;   // images are fed as (value - input_mean) / input_scale
+  double input_mean = 0.0;        // images are fed as (value - input_mean) / input_scale
   double input_scale = 1.0;
   double target_mean = 0.0;  // scalar heads predict (value - target_mean) / target_scale
   double target_scale = 1.0;
-  double pooling_sharpness = 4.0;  // presence-mil
-  double threshold_hu = -950.0;    // threshold
-  baselines::LineCountOptions line_filter;
-  GradingOptions grading;
-  FieldOptions field;
 };
 
 namespace internal {

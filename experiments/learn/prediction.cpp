@@ -24,10 +24,10 @@ std::string shape_text(const Shape& shape) {
 
 Prediction classical_prediction(const TrainedModel::Impl& model, const FloatImage& image) {
   Prediction prediction;
-  const LabelImage field = estimate_field(image, model.field);
-  if (model.strategy == Strategy::threshold) {
+  const LabelImage field = estimate_field(image, model.options.field);
+  if (model.options.strategy == Strategy::threshold) {
     baselines::ThresholdOptions threshold;
-    threshold.threshold_hu = model.threshold_hu;
+    threshold.threshold_hu = model.options.threshold_hu;
     const baselines::ThresholdResult result = baselines::threshold_densitometry(image, field, threshold);
     prediction.map = FloatImage(image.geometry());
     std::copy(result.below.voxels().begin(), result.below.voxels().end(), prediction.map.data());
@@ -35,7 +35,7 @@ Prediction classical_prediction(const TrainedModel::Impl& model, const FloatImag
     prediction.burden_mm3 = static_cast<double>(result.below_count) * image.geometry().voxel_volume_mm3();
     return prediction;
   }
-  baselines::LineCountResult result = baselines::count_lines(image, model.line_filter, &field);
+  baselines::LineCountResult result = baselines::count_lines(image, model.options.line_filter, &field);
   prediction.count = result.count;
   double volume = 0.0;
   for (const auto& component : result.components)
@@ -47,7 +47,7 @@ Prediction classical_prediction(const TrainedModel::Impl& model, const FloatImag
 
 // The map-reading rule of the segmentation-like strategies.
 void read_probability_map(const TrainedModel::Impl& model, const FloatImage& image, Prediction& prediction) {
-  const LabelImage field = estimate_field(image, model.field);
+  const LabelImage field = estimate_field(image, model.options.field);
   const float* values = prediction.map.data();
   double inside = 0.0, field_voxels = 0.0, maximum = 0.0;
   LabelImage lesion(image.geometry(), 0);
@@ -65,7 +65,7 @@ void read_probability_map(const TrainedModel::Impl& model, const FloatImage& ima
   const auto marked = static_cast<double>(std::count(lesion.voxels().begin(), lesion.voxels().end(), std::uint8_t{1}));
   prediction.burden_mm3 = marked * image.geometry().voxel_volume_mm3();
   int grade = 0;
-  for (double edge : model.grading.bin_edges)
+  for (double edge : model.options.grading.bin_edges)
     if (prediction.affected_fraction > edge) ++grade;
   prediction.grade = grade;
 }
@@ -76,7 +76,7 @@ std::vector<Prediction> predict(const TrainedModel& trained, const std::vector<F
   const TrainedModel::Impl& model = trained.impl();
   if (threads < 1) throw UserError("predict: threads = " + std::to_string(threads) + ": must be at least 1");
   std::vector<Prediction> predictions(images.size());
-  if (is_classical(model.strategy)) {
+  if (is_classical(model.options.strategy)) {
     for (std::size_t i = 0; i < images.size(); ++i) predictions[i] = classical_prediction(model, images[i]);
     return predictions;
   }
@@ -98,30 +98,32 @@ std::vector<Prediction> predict(const TrainedModel& trained, const std::vector<F
       internal::normalise_into(images[first + i], model, one);
       std::copy(one.begin(), one.end(), input.begin() + static_cast<std::ptrdiff_t>(i * voxels));
     }
-    const internal::NetworkOutput output =
-        internal::forward_float(network, internal::voxel_tensor(input, static_cast<int>(count), model), model.bfloat16);
-    if (model.strategy == Strategy::scalar) {
+    const internal::NetworkOutput output = internal::forward_float(
+        network, internal::voxel_tensor(input, static_cast<int>(count), model), model.options.bfloat16);
+    if (model.options.strategy == Strategy::scalar) {
       for (std::size_t i = 0; i < count; ++i) {
         Prediction& prediction = predictions[first + i];
         const double raw = output.scalar[static_cast<std::int64_t>(i)].item<double>();
         const double value = raw * model.target_scale + model.target_mean;
         if (model.kind == LabelKind::count) prediction.count = std::max(0.0, value);
-        if (model.kind == LabelKind::grade) prediction.grade = std::clamp(value, 0.0, model.grading.bins() - 1.0);
+        if (model.kind == LabelKind::grade)
+          prediction.grade = std::clamp(value, 0.0, model.options.grading.bins() - 1.0);
         if (model.kind == LabelKind::presence) prediction.presence_probability = 1.0 / (1.0 + std::exp(-raw));
       }
       continue;
     }
-    const torch::Tensor map = internal::activate_map(output.map, model.strategy).contiguous();  // x-fastest voxels
+    const torch::Tensor map =
+        internal::activate_map(output.map, model.options.strategy).contiguous();  // x-fastest voxels
     torch::Tensor pooled;
-    if (model.strategy == Strategy::presence_mil)
-      pooled = torch::sigmoid(internal::log_sum_exp_pool(output.map, model.pooling_sharpness)).contiguous();
+    if (model.options.strategy == Strategy::presence_mil)
+      pooled = torch::sigmoid(internal::log_sum_exp_pool(output.map, model.options.pooling_sharpness)).contiguous();
     for (std::size_t i = 0; i < count; ++i) {
       Prediction& prediction = predictions[first + i];
       const FloatImage& image = images[first + i];
       prediction.map = FloatImage(image.geometry());
       const float* values = map.data_ptr<float>() + i * voxels;
       std::copy(values, values + voxels, prediction.map.data());
-      if (model.strategy == Strategy::count_map) {
+      if (model.options.strategy == Strategy::count_map) {
         double total = 0.0;
         for (std::size_t v = 0; v < voxels; ++v) total += values[v];
         prediction.count = total;

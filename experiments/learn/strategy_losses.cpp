@@ -67,10 +67,11 @@ std::vector<float> click_target(const FloatImage& image, const std::vector<Click
 }
 
 void set_interval(Sample& sample, const Label& label, const TrainedModel::Impl& model, const FloatImage& image) {
-  const FractionInterval interval = grade_fraction_interval(static_cast<int>(std::lround(label.value)), model.grading);
+  const FractionInterval interval =
+      grade_fraction_interval(static_cast<int>(std::lround(label.value)), model.options.grading);
   sample.lower = static_cast<float>(interval.lower);
   sample.upper = static_cast<float>(interval.upper);
-  sample.field = field_of(image, model.field);
+  sample.field = field_of(image, model.options.field);
 }
 
 // Segmentation loss on outlines: cross-entropy + dice_weight * soft Dice, or mask-robust's
@@ -111,7 +112,8 @@ torch::Tensor weak_loss(const NetworkOutput& output, const TrainedModel::Impl& m
     case LabelKind::grade:
       return size_constraint_penalty(field_fraction(output.map, field, model.shape.dims()), lower, upper).mean();
     case LabelKind::presence:
-      return torch::binary_cross_entropy_with_logits(log_sum_exp_pool(output.map, model.pooling_sharpness), values);
+      return torch::binary_cross_entropy_with_logits(log_sum_exp_pool(output.map, model.options.pooling_sharpness),
+                                                     values);
     case LabelKind::count:
       return torch::mse_loss(output.scalar, values);
     default:
@@ -130,7 +132,7 @@ torch::Tensor voxel_tensor(std::vector<float>& values, int n, const TrainedModel
   // channels-last contiguous, so contiguous() would alias `values`, which autograd may read
   // after the caller's vector is gone.
   const torch::Tensor view = torch::from_blob(values.data(), batch_sizes(n, model.shape), torch::kFloat32);
-  if (model.channels_last) return view.clone(channels_last_format(model.shape.dims()));
+  if (model.options.channels_last) return view.clone(channels_last_format(model.shape.dims()));
   return view.clone();
 }
 
@@ -161,7 +163,7 @@ Sample make_sample(const FloatImage& image, const Label& label, const TrainedMod
                    const TrainOptions& options) {
   Sample sample;
   normalise_into(image, model, sample.image);
-  switch (model.strategy) {
+  switch (model.options.strategy) {
     case Strategy::mask:
     case Strategy::mask_robust:
     case Strategy::partial:
@@ -207,15 +209,16 @@ Sample make_sample(const FloatImage& image, const Label& label, const TrainedMod
 }
 
 torch::Tensor batch_loss(Network& network, const TrainedModel::Impl& model, Batch& batch, const TrainOptions& options) {
-  const NetworkOutput output = forward_float(network, voxel_tensor(batch.images, batch.size, model), model.bfloat16);
+  const NetworkOutput output =
+      forward_float(network, voxel_tensor(batch.images, batch.size, model), model.options.bfloat16);
   const torch::Tensor& map = output.map;
   const auto reduce = spatial_dims(model.shape.dims());
   const auto voxels_of = [&](std::vector<float>& values) { return voxel_tensor(values, batch.size, model); };
-  switch (model.strategy) {
+  switch (model.options.strategy) {
     case Strategy::mask:
     case Strategy::mask_robust:
     case Strategy::partial_naive:
-      return outline_loss(map, voxels_of(batch.targets), model.strategy, options);
+      return outline_loss(map, voxels_of(batch.targets), model.options.strategy, options);
     case Strategy::partial:
       return marked_voxel_loss(map, voxels_of(batch.targets), options.background_prior);
     case Strategy::count_map: {

@@ -181,7 +181,10 @@ json to_json(const TrainOptions& o) {
             {"max_length_mm", line.max_length_mm},
             {"min_elongation", line.min_elongation}}},
           {"network_file", o.network_file},
-          {"grading", {{"bin_edges", o.grading.bin_edges}}},
+          {"grading",
+           {{"bin_edges", o.grading.bin_edges},
+            {"perception_sd", o.grading.perception_sd},
+            {"bias", o.grading.bias}}},
           {"field",
            {{"low", bound(o.field.low)},
             {"high", bound(o.field.high)},
@@ -244,6 +247,8 @@ void update_from_json(const json& object, TrainOptions& o, const std::string& pa
   fields.text("network_file", o.network_file);
   JsonFields grading = fields.child("grading");
   grading.numbers("bin_edges", o.grading.bin_edges);
+  grading.number("perception_sd", o.grading.perception_sd);
+  grading.number("bias", o.grading.bias);
   grading.finish();
   JsonFields field = fields.child("field");
   field.bound_value("low", o.field.low, -std::numeric_limits<double>::infinity());

@@ -1,6 +1,7 @@
 // Each strategy against its trivial baseline on a small fixed problem, plus determinism,
 // checkpoints and bad checkpoints. Seeds are fixed and printed; truth only scores.
 #include "experiments/learn/learner.h"
+#include "experiments/learn/train_options_json.h"
 
 #include <gtest/gtest.h>
 
@@ -266,6 +267,8 @@ TEST_F(TinyProblem, CheckpointRoundTripGivesIdenticalPredictions) {
   EXPECT_FALSE(std::filesystem::exists(path.string() + ".partial"));
   const TrainedModel loaded = TrainedModel::load(path.string());
   EXPECT_EQ(loaded.strategy(), Strategy::count_map);
+  // The checkpoint keeps every training option through their one JSON form.
+  EXPECT_EQ(to_json(loaded.options()), to_json(tiny_options()));
   expect_identical(predict(result.model, images_of(*subjects_)), predict(loaded, images_of(*subjects_)));
   std::filesystem::remove(path);
 }

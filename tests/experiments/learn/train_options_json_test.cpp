@@ -14,30 +14,83 @@
 namespace frugal::learn {
 namespace {
 
+// Every field away from its default, so that a field the JSON form drops reads back different.
 TrainOptions unusual_options() {
   TrainOptions o;
   o.strategy = Strategy::line_filter;
   o.epochs = 7;
   o.batch_size = 3;
   o.learning_rate = 1.25e-4;
+  o.weight_decay = 2e-4;
   o.seed = 18446744073709551615ULL;
+  o.threads = 3;
+  o.validation_fraction = 0.3;
+  o.patience = 2;
+  o.width = 5;
+  o.depth = 2;
   o.normalization = Normalization::instance;
+  o.channels_last = false;
   o.bfloat16 = false;
+  o.augmentation.flips = false;
   o.augmentation.rotation_degrees = 12.5;
   o.augmentation.deformation_mm = 0.75;
+  o.augmentation.deformation_spacing_mm = 9.0;
+  o.dice_weight = 0.5;
   o.robust_loss = RobustLoss::bootstrapping;
   o.gce_q = 0.3;
+  o.bootstrap_beta = 0.6;
+  o.label_smoothing = 0.2;
+  o.background_prior = 0.1;
+  o.pooling_sharpness = 6.0;
+  o.point_radius_mm = 1.5;
+  o.object_size_min_mm3 = 3.0;
+  o.object_size_max_mm3 = 30.0;
+  o.mask_weight = 0.7;
+  o.weak_weight = 0.4;
+  o.consistency_weight = 0.25;
+  o.threshold_hu = -910.0;
   o.line_filter.filter.sigmas_mm = {0.5, 1.25};
+  o.line_filter.filter.alpha = 0.4;
+  o.line_filter.filter.beta = 0.6;
+  o.line_filter.filter.c = 2.0;
   o.line_filter.filter.dark_structures = true;
   o.line_filter.threshold_kind = baselines::ResponseThreshold::absolute;
   o.line_filter.threshold = 0.07;
+  o.line_filter.connectivity = 4;
   o.line_filter.min_voxels = 5;
+  o.line_filter.min_length_mm = 1.5;
   o.line_filter.max_length_mm = 22.0;
+  o.line_filter.min_elongation = 2.5;
   o.network_file = "mine.pt";
-  o.grading.bin_edges = {0.0, 0.2};
+  o.grading.bin_edges = {0.01, 0.2};
+  o.grading.perception_sd = 0.9;
+  o.grading.bias = -0.3;
   o.field.low = -1000.0;
   o.field.drop_border_connected = true;
   return o;
+}
+
+// A tripwire: a member added to TrainOptions changes its size (Debian 12 amd64, GCC 12). When it
+// trips, add the member to to_json, update_from_json and unusual_options, then the size here.
+static_assert(sizeof(TrainOptions) == 424, "TrainOptions changed: give the new member its JSON key");
+
+int leaves(const nlohmann::json& json) {
+  if (!json.is_object()) return 1;
+  int count = 0;
+  for (const auto& item : json.items()) count += leaves(item.value());
+  return count;
+}
+
+TEST(TrainOptionsJson, EveryMemberIsWrittenAndDiffersFromTheDefault) {
+  const nlohmann::json unusual = to_json(unusual_options());
+  const TrainOptions default_options;
+  const nlohmann::json defaults = to_json(default_options).flatten();
+  EXPECT_EQ(leaves(unusual), 51);  // every member of TrainOptions and its nested structs
+  const nlohmann::json flat = unusual.flatten();
+  for (const auto& item : flat.items()) {
+    if (item.key() == "/field/high" || !defaults.contains(item.key())) continue;  // open either way; a longer list
+    EXPECT_NE(item.value(), defaults.at(item.key())) << item.key();
+  }
 }
 
 TEST(TrainOptionsJson, EveryFieldSurvivesTheRoundTrip) {
@@ -49,6 +102,8 @@ TEST(TrainOptionsJson, EveryFieldSurvivesTheRoundTrip) {
   EXPECT_EQ(read.line_filter.threshold_kind, baselines::ResponseThreshold::absolute);
   EXPECT_EQ(read.seed, original.seed);
   EXPECT_EQ(read.field.low, -1000.0);
+  EXPECT_EQ(read.grading.perception_sd, 0.9);
+  EXPECT_EQ(read.grading.bias, -0.3);
   EXPECT_TRUE(std::isinf(read.field.high));  // an open bound is null in JSON
   EXPECT_TRUE(to_json(read)["field"]["high"].is_null());
 }
