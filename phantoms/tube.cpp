@@ -42,8 +42,8 @@ Vec TubePiece::tangent_at(double arc_mm) const {
 
 Vec TubePiece::normal_at(double arc_mm) const {
   const double angle = arc_mm * curvature_per_mm;
-  return add_scaled(Vec{std::cos(angle) * normal[0], std::cos(angle) * normal[1], std::cos(angle) * normal[2]},
-                    tangent, -std::sin(angle));
+  return add_scaled(Vec{std::cos(angle) * normal[0], std::cos(angle) * normal[1], std::cos(angle) * normal[2]}, tangent,
+                    -std::sin(angle));
 }
 
 double TubePiece::level(const Vec& p) const {
@@ -203,8 +203,8 @@ TubePiece start_tube(const Vec& start_mm, const Vec& tangent, double length_mm, 
     for (double& c : piece.normal) c = -c;
   }
   // At most a quarter turn per piece, so the end disc's plane bounds the piece on one side only.
-  piece.curvature_per_mm = std::min({bend_rad / length_mm, largest_curvature(std::max(start_radius_mm, end_radius_mm)),
-                                     0.5 * M_PI / length_mm});
+  piece.curvature_per_mm = std::min(
+      {bend_rad / length_mm, largest_curvature(std::max(start_radius_mm, end_radius_mm)), 0.5 * M_PI / length_mm});
   return piece;
 }
 

@@ -13,15 +13,15 @@
 namespace frugal {
 
 struct TubePiece {
-  std::array<double, 3> start_mm{};                // centre of the start disc
-  std::array<double, 3> tangent{1.0, 0.0, 0.0};    // unit centreline direction at the start
-  std::array<double, 3> normal{0.0, 1.0, 0.0};     // unit, perpendicular to tangent: towards the bend
-  double length_mm = 1.0;                          // arc length of the centreline
-  double curvature_per_mm = 0.0;                   // 1 / bend radius; 0 = straight
+  std::array<double, 3> start_mm{};              // centre of the start disc
+  std::array<double, 3> tangent{1.0, 0.0, 0.0};  // unit centreline direction at the start
+  std::array<double, 3> normal{0.0, 1.0, 0.0};   // unit, perpendicular to tangent: towards the bend
+  double length_mm = 1.0;                        // arc length of the centreline
+  double curvature_per_mm = 0.0;                 // 1 / bend radius; 0 = straight
   double start_radius_mm = 0.5;
   double end_radius_mm = 0.5;
 
-  std::array<double, 3> point(double arc_mm) const;    // centreline point at arc length arc_mm
+  std::array<double, 3> point(double arc_mm) const;  // centreline point at arc length arc_mm
   std::array<double, 3> tangent_at(double arc_mm) const;
   std::array<double, 3> normal_at(double arc_mm) const;
   std::array<double, 3> end_mm() const { return point(length_mm); }
@@ -45,9 +45,9 @@ struct TubePiece {
 struct Tube {
   std::vector<TubePiece> pieces;
 
-  double length_mm() const;          // total arc length
-  double volume_mm3() const;         // sum of the pieces' exact volumes
-  double area_mm2() const;           // sum of the pieces' exact in-plane areas
+  double length_mm() const;   // total arc length
+  double volume_mm3() const;  // sum of the pieces' exact volumes
+  double area_mm2() const;    // sum of the pieces' exact in-plane areas
   double max_radius_mm() const;
   std::array<double, 3> point(double arc_mm) const;  // along the whole chain, clamped to its ends
   double level(const std::array<double, 3>& p) const;

@@ -11,10 +11,10 @@ namespace {
 
 using Vec = std::array<double, 3>;
 
-constexpr double kBranchTaper = 0.85;       // end radius / start radius along one branch (invented)
-constexpr double kChildLength = 0.75;       // child length / parent length (invented)
-constexpr double kFanHalfAngleDeg = 80.0;   // trunks spread over +-this around the lateral direction (invented)
-constexpr double kMinBranchAngleDeg = 20.0; // each child leaves its parent's end at 20..40 degrees (invented)
+constexpr double kBranchTaper = 0.85;        // end radius / start radius along one branch (invented)
+constexpr double kChildLength = 0.75;        // child length / parent length (invented)
+constexpr double kFanHalfAngleDeg = 80.0;    // trunks spread over +-this around the lateral direction (invented)
+constexpr double kMinBranchAngleDeg = 20.0;  // each child leaves its parent's end at 20..40 degrees (invented)
 constexpr double kMaxBranchAngleDeg = 40.0;
 
 struct Grower {
@@ -91,13 +91,16 @@ struct Grower {
     // Murray's law for a symmetric split: r_child = r_parent / 2^(1/3) (Murray 1926, from memory).
     const double child_radius = piece.end_radius_mm / std::cbrt(2.0);
     const Vec end = piece.end_mm(), end_tangent = piece.tangent_at(piece.length_mm);
-    const double norm_t = std::sqrt(end_tangent[0] * end_tangent[0] + end_tangent[1] * end_tangent[1] + end_tangent[2] * end_tangent[2]);
+    const double norm_t =
+        std::sqrt(end_tangent[0] * end_tangent[0] + end_tangent[1] * end_tangent[1] + end_tangent[2] * end_tangent[2]);
     const Vec t{end_tangent[0] / norm_t, end_tangent[1] / norm_t, end_tangent[2] / norm_t};
     const double along = branching_plane[0] * t[0] + branching_plane[1] * t[1] + branching_plane[2] * t[2];
     Vec p{branching_plane[0] - along * t[0], branching_plane[1] - along * t[1], branching_plane[2] - along * t[2]};
     const double norm_p = std::sqrt(p[0] * p[0] + p[1] * p[1] + p[2] * p[2]);
-    if (norm_p < 1e-9) p = across(t);
-    else for (double& c : p) c /= norm_p;
+    if (norm_p < 1e-9)
+      p = across(t);
+    else
+      for (double& c : p) c /= norm_p;
     for (double angle_deg : child_angles) {
       const double angle = angle_deg * M_PI / 180.0;
       const Vec child{std::cos(angle) * t[0] + std::sin(angle) * p[0], std::cos(angle) * t[1] + std::sin(angle) * p[1],
@@ -118,7 +121,8 @@ void collect(const TubePiece& piece, int index, const Geometry& g, const LabelIm
   const int extents[3] = {g.shape.x, g.shape.y, g.shape.z};
   for (std::size_t axis = 0; axis < 3; ++axis) {
     first[axis] = std::max(0, static_cast<int>(std::floor((low[axis] - g.origin_mm[axis]) / g.spacing_mm[axis])) - 1);
-    last[axis] = std::min(extents[axis] - 1, static_cast<int>(std::ceil((high[axis] - g.origin_mm[axis]) / g.spacing_mm[axis])) + 1);
+    last[axis] = std::min(extents[axis] - 1,
+                          static_cast<int>(std::ceil((high[axis] - g.origin_mm[axis]) / g.spacing_mm[axis])) + 1);
   }
   if (flat) first[2] = last[2] = 0;
   for (int k = first[2]; k <= last[2]; ++k)
@@ -174,7 +178,8 @@ void rasterise_union(const std::vector<TubePiece>& pieces, const Geometry& g, co
           for (int a = 0; a < sub; ++a) {
             const double oa = (a + 0.5) / sub - 0.5, ob = (b + 0.5) / sub - 0.5;
             const double oc = flat ? 0.0 : (c + 0.5) / sub - 0.5;
-            const Vec p{centre[0] + oa * g.spacing_mm[0], centre[1] + ob * g.spacing_mm[1], centre[2] + oc * g.spacing_mm[2]};
+            const Vec p{centre[0] + oa * g.spacing_mm[0], centre[1] + ob * g.spacing_mm[1],
+                        centre[2] + oc * g.spacing_mm[2]};
             for (std::size_t q = first; q < last; ++q)
               if (pieces[static_cast<std::size_t>(by_voxel[q])].level(p) <= 0.0) {
                 ++inside;
@@ -210,15 +215,21 @@ LungTree grow_lung_tree(const TreeOptions& options, const LungOutline lungs[2], 
     for (int kind = 0; kind < 2; ++kind) {
       const bool airway = kind == 1;
       const int trunks = airway ? options.airway_trunks : options.vessel_trunks;
-      Grower grower{options, lung, flat, random, airway ? &tree.airway_walls : &tree.vessels,
+      Grower grower{options,
+                    lung,
+                    flat,
+                    random,
+                    airway ? &tree.airway_walls : &tree.vessels,
                     airway ? &tree.airway_lumens : nullptr};
       for (int trunk = 0; trunk < trunks; ++trunk) {
         const double fan = kFanHalfAngleDeg * M_PI / 180.0;
         const double angle = lateral - fan + 2.0 * fan * (trunk + 0.5) / trunks + random.uniform(-0.1, 0.1);
         Vec direction{std::cos(angle), std::sin(angle), flat ? 0.0 : random.uniform(-0.5, 0.5)};
-        const double norm = std::sqrt(direction[0] * direction[0] + direction[1] * direction[1] + direction[2] * direction[2]);
+        const double norm =
+            std::sqrt(direction[0] * direction[0] + direction[1] * direction[1] + direction[2] * direction[2]);
         for (double& c : direction) c /= norm;
-        grower.grow(hilum, direction, options.trunk_length_mm, airway ? options.airway_radius_mm : options.vessel_radius_mm, 0);
+        grower.grow(hilum, direction, options.trunk_length_mm,
+                    airway ? options.airway_radius_mm : options.vessel_radius_mm, 0);
       }
     }
   }

@@ -50,7 +50,8 @@ MeasuredHead measure_head(const Subject& g) {
       head.semi_y = std::max(head.semi_y, std::abs(p[1]) + 0.5 * geometry.spacing_mm[1]);
     }
   for (int side = 0; side < 2; ++side) {
-    head.ventricles.ventricles[side].centre_mm = {(side == 0 ? -1.0 : 1.0) * 0.12 * head.semi_x, -0.05 * head.semi_y, 0.0};
+    head.ventricles.ventricles[side].centre_mm = {(side == 0 ? -1.0 : 1.0) * 0.12 * head.semi_x, -0.05 * head.semi_y,
+                                                  0.0};
     head.ventricles.ventricles[side].semi_axes_mm = {0.07 * head.semi_x, 0.22 * head.semi_y, 1.0};
   }
   return head;
@@ -105,7 +106,8 @@ TEST(LesionPrior, ShareNearTheVentriclesMatchesThePriorAndExceedsUniform) {
           const Vec p{x, y, 0.0};
           double weight = 1.0;
           if (densities[d] == LesionDensity::periventricular) {
-            const bool in_csf = head.ventricles.normalised_radius(p, 0) < 1.2 || head.ventricles.normalised_radius(p, 1) < 1.2;
+            const bool in_csf =
+                head.ventricles.normalised_radius(p, 0) < 1.2 || head.ventricles.normalised_radius(p, 1) < 1.2;
             weight = in_csf ? 0.0 : std::exp(-head.ventricles.wall_distance_mm(p) / decay_mm);
           }
           weight_sum += weight;

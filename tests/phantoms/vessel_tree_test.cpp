@@ -108,8 +108,8 @@ TEST(VesselTree, DensitometryCountsTheLumenAndStillMatchesTargets) {
       EXPECT_DOUBLE_EQ(g.truth.densitometry, static_cast<double>(below) / static_cast<double>(field))
           << to_string(pattern) << " seed 6 subject " << subject;
       EXPECT_NEAR(g.truth.densitometry, 0.12, 0.005) << to_string(pattern) << " seed 6 subject " << subject;
-      std::printf("%s subject %d: densitometry %.4f (target 0.12), affected fraction %.4f\n", to_string(pattern).c_str(),
-                  subject, g.truth.densitometry, g.truth.affected_fraction);
+      std::printf("%s subject %d: densitometry %.4f (target 0.12), affected fraction %.4f\n",
+                  to_string(pattern).c_str(), subject, g.truth.densitometry, g.truth.affected_fraction);
     }
   }
   ScenarioOptions healthy = chest(5);
