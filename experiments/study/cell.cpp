@@ -8,6 +8,8 @@
 #include "corruptors/rater_yaml.h"
 #include "experiments/learn/train_options_json.h"
 #include "phantoms/image.h"
+#include "phantoms/key_path.h"
+#include "phantoms/user_error.h"
 #include "phantoms/scenario_yaml.h"
 #include "phantoms/yaml_to_json.h"
 
@@ -20,6 +22,30 @@ namespace {
 // The scenario and rater writers give every option as YAML; their JSON form is that YAML's tree.
 json scenario_json(const ScenarioOptions& scenario) { return yaml_to_json(YAML::Load(scenario_to_yaml(scenario))); }
 json rater_json(const RaterOptions& rater) { return yaml_to_json(YAML::Load(rater_to_yaml(rater))); }
+
+// JSON is YAML: the scenario and rater readers take their JSON form back, with their own checks.
+ScenarioOptions scenario_from_json(const json& tree) { return read_scenario(YAML::Load(tree.dump()), "spec_json.scenario"); }
+RaterOptions rater_from_json(const json& tree, const std::string& where) {
+  return read_rater(YAML::Load(tree.dump()), where);
+}
+
+LabelPlan plan_from_json(const json& tree, const std::string& where) {
+  LabelPlan plan;
+  plan.name = tree.at("name").get<std::string>();
+  if (tree.contains("strong")) {
+    plan.strong = tree.at("strong").get<std::string>();
+    plan.weak = tree.at("weak").get<std::string>();
+    plan.strong_share = tree.at("strong_share").get<double>();
+  } else if (tree.at("kind").get<std::string>() == "none") {
+    plan.labelled = false;
+  } else {
+    plan.kind = label_kind_from_string(tree.at("kind").get<std::string>());
+    if (plan.kind == LabelKind::count) plan.scope = count_scope_from_string(tree.at("scope").get<std::string>());
+    plan.rater = rater_from_json(tree.at("rater"), where + ".rater");
+    plan.raters_per_image = tree.at("raters_per_image").get<int>();
+  }
+  return plan;
+}
 
 json strategies_json(const std::vector<learn::Strategy>& strategies) {
   json names = json::array();
@@ -77,6 +103,43 @@ json to_json(const CellSpec& cell, bool with_threads) {
   }
   if (with_threads) out["threads"] = cell.threads;
   return out;
+}
+
+CellSpec cell_from_json(const json& tree) {
+  CellSpec cell;
+  try {
+    cell.study = tree.at("study").get<std::string>();
+    cell.scenario = scenario_from_json(tree.at("scenario"));
+    cell.seed = tree.at("seed").get<std::uint64_t>();
+    const json& cohort = tree.at("cohort");
+    cell.cohort.pool = cohort.at("pool").get<int>();
+    cell.cohort.test = cohort.at("test").get<int>();
+    cell.cohort.test_rescans = cohort.at("test_rescans").get<int>();
+    cell.cohort.decorrelated_test = cohort.at("decorrelated_test").get<bool>();
+    if (const std::string problem = key_path_under("cohort", cell.cohort.validate()); !problem.empty())
+      throw UserError("spec_json." + problem);
+    cell.plan = plan_from_json(tree.at("plan"), "spec_json.plan");
+    if (cell.plan.is_mixed()) {
+      cell.strong = plan_from_json(tree.at("strong"), "spec_json.strong");
+      cell.weak = plan_from_json(tree.at("weak"), "spec_json.weak");
+    }
+    learn::update_from_json(tree.at("train"), cell.train, "spec_json.train");
+    if (const std::string problem = key_path_under("train", cell.train.validate()); !problem.empty())
+      throw UserError("spec_json." + problem);
+    cell.plan.strategies = {cell.train.strategy};
+    cell.training_images = tree.at("training_images").get<int>();
+    cell.budget = tree.at("budget").get<double>();
+    const std::string unit = tree.at("budget_unit").get<std::string>();
+    if (unit != "hours" && unit != "labels")
+      throw UserError("spec_json.budget_unit is '" + unit + "'; allowed: hours, labels");
+    cell.budget_unit = unit == "hours" ? BudgetUnit::hours : BudgetUnit::labels;
+    cell.repeat = tree.at("repeat").get<int>();
+    cell.quantities = tree.at("quantities").get<std::vector<std::string>>();
+    if (tree.contains("threads")) cell.threads = tree.at("threads").get<int>();
+  } catch (const json::exception& error) {
+    throw UserError(std::string("spec_json: not a cell as frugal writes it (") + error.what() + ")");
+  }
+  return cell;
 }
 
 json to_json(const StudyOptions& study) {

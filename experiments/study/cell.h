@@ -33,6 +33,9 @@ struct CellSpec {
 // Every field; `with_threads` false gives the identity the key hashes.
 nlohmann::json to_json(const CellSpec& cell, bool with_threads = true);
 nlohmann::json to_json(const LabelPlan& plan);
+// Reads what to_json(cell) wrote (a store's spec_json) back into the same cell: the same JSON and
+// the same key, so a stored cell can be run again on its own. Throws UserError naming what is wrong.
+CellSpec cell_from_json(const nlohmann::json& tree);
 // The resolved study, threads excepted (they change no cell's identity).
 nlohmann::json to_json(const StudyOptions& study);
 

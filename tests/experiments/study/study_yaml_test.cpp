@@ -519,5 +519,54 @@ TEST(StudyYamlStudyHash, IgnoresThreadsButNotBudgets) {
   EXPECT_EQ(sha256_hex(""), "e3b0c44298fc1c149afbf4c8996fb92427ae41e4649b934ca495991b7852b855");
 }
 
+// A stored cell (spec_json) reads back into the same cell: every cell of every bundled study,
+// mixed plans and classical strategies included, gives the same JSON and the same key (a round
+// trip; common practice, no source).
+TEST(StudyYamlCellJson, EveryBundledCellSurvivesTheRoundTrip) {
+  // The bundled studies have no mixed plan: add one.
+  const std::string mixed = scratch_file("cell_json_mixed");
+  {
+    std::ofstream out(mixed, std::ios::binary | std::ios::trunc);
+    out << with_paths(kHead +
+                      "plans:\n  counts: {kind: count, rater: @R@/quick-reader.yaml, strategies: [count-map]}\n"
+                      "  outlines: {kind: outline, rater: @R@/careful-reader.yaml, strategies: [mask]}\n"
+                      "  mix: {strong: outlines, weak: counts, strong_share: 0.5, strategies: [mixed]}\n"
+                      "budgets: [1, 2]\n");
+  }
+  std::vector<std::string> files{mixed};
+  for (const auto& entry : fs::directory_iterator(kSource + "/studies"))
+    if (entry.path().extension() == ".yaml") files.push_back(entry.path().string());
+  int cells = 0, mixed_cells = 0;
+  for (const std::string& file : files) {
+    for (const CellSpec& cell : expand_cells(read_study_file(file))) {
+      mixed_cells += cell.plan.is_mixed() ? 1 : 0;
+      const CellSpec read = cell_from_json(to_json(cell));
+      EXPECT_EQ(to_json(read), to_json(cell)) << file << " cell " << cells;
+      EXPECT_EQ(cell_key(read), cell_key(cell));
+      ++cells;
+    }
+  }
+  EXPECT_GE(cells, 10);
+  EXPECT_GE(mixed_cells, 1);
+}
+
+TEST(StudyYamlCellJson, ADamagedSpecIsAUserErrorNamingTheKey) {
+  const CellSpec cell = expand_cells(read_study_file(kSource + "/studies/ageing-cohort.yaml")).front();
+  nlohmann::json tree = to_json(cell);
+  tree["train"]["epochs"] = 0;
+  try {
+    cell_from_json(tree);
+    ADD_FAILURE() << "epochs 0 was read";
+  } catch (const UserError& error) {
+    EXPECT_EQ(std::string(error.what()).rfind("spec_json.train.epochs = 0", 0), 0U) << error.what();
+  }
+  tree = to_json(cell);
+  tree.erase("cohort");
+  EXPECT_THROW(cell_from_json(tree), UserError);
+  tree = to_json(cell);
+  tree["plan"]["rater"]["counting"]["slip_probability"] = 2.0;
+  EXPECT_THROW(cell_from_json(tree), UserError);
+}
+
 }  // namespace
 }  // namespace frugal::study
