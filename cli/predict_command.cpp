@@ -18,6 +18,7 @@
 #include "cli/progress_bar.h"
 #include "experiments/learn/learner.h"
 #include "experiments/scoring/predictions_table.h"
+#include "experiments/study/map_kind.h"
 #include "frugal_version.h"
 #include "phantoms/folder_manifest.h"
 #include "phantoms/nifti_io.h"
@@ -104,13 +105,6 @@ std::vector<Input> gather_inputs(const std::vector<std::string>& paths, nlohmann
   return inputs;
 }
 
-scoring::MapKind map_kind_of(learn::Strategy strategy) {
-  if (!learn::is_map_strategy(strategy) && !learn::is_classical(strategy)) return scoring::MapKind::none;
-  if (strategy == learn::Strategy::count_map) return scoring::MapKind::density;
-  if (strategy == learn::Strategy::line_filter) return scoring::MapKind::response;
-  return scoring::MapKind::probability;  // lesion probability; threshold's 0/1 mask reads the same way
-}
-
 // Removes what an earlier run wrote, manifest first, so an interrupted overwrite never looks finished.
 void remove_predictions(const fs::path& root) {
   std::error_code ignored;
@@ -133,7 +127,7 @@ void run_predict(const PredictArguments& arguments) {
   const fs::path root(arguments.out);
   std::error_code ignored;
   if (arguments.overwrite) remove_predictions(root);
-  const scoring::MapKind map_kind = arguments.no_maps ? scoring::MapKind::none : map_kind_of(strategy);
+  const scoring::MapKind map_kind = arguments.no_maps ? scoring::MapKind::none : study::map_kind_of(strategy);
   fs::create_directories(map_kind == scoring::MapKind::none ? root : root / "maps", ignored);
   if (!fs::is_directory(root, ignored)) throw UserError(arguments.out + ": cannot create the output folder");
 

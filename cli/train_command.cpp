@@ -23,6 +23,7 @@
 #include "experiments/learn/learner.h"
 #include "experiments/learn/memory_estimate.h"
 #include "experiments/learn/train_options_json.h"
+#include "experiments/learn/training_set_files.h"
 #include "frugal_version.h"
 #include "phantoms/folder_manifest.h"
 #include "phantoms/nifti_io.h"
@@ -60,15 +61,14 @@ std::string choose_field(const TrainArguments& arguments, const PhantomSetIndex&
   const bool given = std::any_of(arguments.field_options.begin(), arguments.field_options.end(),
                                  [](const CLI::Option* option) { return option->count() > 0; });
   if (given) return "command line";
-  std::set<std::string> families;
-  for (const TruthRow& row : phantoms.rows()) families.insert(row.family);
-  if (families.empty()) return "whole image (the phantom set has no rows)";
-  if (families.size() > 1)
-    throw UserError(phantoms.truth_file() +
-                    ": the phantom set mixes streaks and voids images, which have different fields; give the field "
-                    "with --field-low, --field-high and --field-drop-border");
-  field = learn::default_field_for_family(*families.begin());
-  return *families.begin() + " family default";
+  if (phantoms.rows().empty()) return "whole image (the phantom set has no rows)";
+  try {
+    field = learn::field_for_phantom_set(phantoms);
+  } catch (const UserError& error) {
+    throw UserError(std::string(error.what()) +
+                    "; on the command line: --field-low, --field-high, --field-drop-border");
+  }
+  return phantoms.rows().front().family + " family default";
 }
 
 std::string number_text(const char* format, double value) {
@@ -153,41 +153,9 @@ void run_train(TrainArguments& arguments) {
   const std::string field_source = choose_field(arguments, phantoms, options.field);
   if (const std::string error = options.validate(); !error.empty()) throw UserError(arguments.keys.message(error));
 
-  // One sample per label; each image is read once however many raters labelled it.
-  learn::TrainingSet training;
-  std::map<std::pair<int, int>, FloatImage> images;
-  std::set<int> labelled_subjects;
-  const auto image_of = [&](int subject, int rescan) -> const FloatImage& {
-    const auto key = std::make_pair(subject, rescan);
-    auto found = images.find(key);
-    if (found == images.end())
-      found = images.emplace(key, read_nifti_image(phantoms.find(subject, rescan)->image_path)).first;
-    return found->second;
-  };
-  if (!classical) {
-    for (LabelSet& set : label_sets)
-      for (Label& label : set.labels) {
-        labelled_subjects.insert(label.subject);
-        const FloatImage& image = image_of(label.subject, label.rescan);
-        if (!label.mask.empty() && label.mask.shape() != image.shape())
-          throw UserError(set.info.folder + ": the mask of subject " + std::to_string(label.subject) + ", rater " +
-                          std::to_string(label.rater) + " has another grid than its image " +
-                          phantoms.find(label.subject, label.rescan)->image_path +
-                          "; the labels were made at another image size (--dims or geometry differ)");
-        training.add(image, std::move(label));
-      }
-  } else if (!phantoms.rows().empty()) {
-    // Classical strategies learn nothing; one image tells the model the grid it will see.
-    training.add_unlabelled(read_nifti_image(phantoms.rows().front().image_path));
-  }
-  int unlabelled = 0;
-  if (options.consistency_weight > 0.0 && !classical)
-    for (const TruthRow& row : phantoms.rows())
-      if (labelled_subjects.count(row.subject) == 0) {
-        training.add_unlabelled(read_nifti_image(row.image_path));
-        ++unlabelled;
-      }
-  images.clear();
+  learn::FileTrainingSet files = learn::training_set_from_files(phantoms, label_sets, options);
+  const learn::TrainingSet& training = files.set;
+  const int unlabelled = files.unlabelled;
 
   learn::TrainResult result;
   // Drawn on standard error only when it is a terminal (ProgressBar checks).

@@ -10,6 +10,7 @@
 #include "corruptors/grade.h"
 #include "corruptors/labeler.h"
 #include "experiments/study/example_maps.h"
+#include "experiments/study/map_kind.h"
 #include "experiments/measure/kappa.h"
 #include "experiments/scoring/scoring.h"
 #include "phantoms/phantom.h"

@@ -42,11 +42,6 @@ std::string lesions_text(int count) { return std::to_string(count) + (count == 1
 
 }  // namespace
 
-bool map_is_probability(learn::Strategy strategy) {
-  return strategy == learn::Strategy::threshold ||
-         (learn::is_map_strategy(strategy) && strategy != learn::Strategy::count_map);
-}
-
 std::size_t example_subject(const std::vector<const Subject*>& subjects) {
   for (std::size_t i = 0; i < subjects.size(); ++i) {
     const Subject& subject = *subjects[i];

@@ -7,15 +7,11 @@
 
 #include "corruptors/label.h"
 #include "experiments/learn/learner.h"
+#include "experiments/study/map_kind.h"
 #include "experiments/store/results_store.h"
 #include "phantoms/subject.h"
 
 namespace frugal::study {
-
-// Whether a strategy's map is a lesion probability, 0..1 (learner.h's prediction rules; the
-// threshold's 0/1 mask counts as one): scored for overlap and shown on the probability scale.
-// Other maps (a density, a filter response) are shown stretched to their own range.
-bool map_is_probability(learn::Strategy strategy);
 
 // The first subject (in order) whose truth holds a lesion voxel on its reference slice, else 0,
 // so the pictures show what the strategy is asked to find.

@@ -85,6 +85,21 @@ TEST(ExampleMaps, ADensityIsShownInGreyAndAScalarStrategyHasNoMapPicture) {
   EXPECT_FALSE(has_role(test_example_maps(subject, learn::Prediction{}, learn::Strategy::scalar), "prediction"));
 }
 
+// The one rule of what a map means, shared by run_cell, the panels and frugal predict
+// (learner.h's prediction rules; common practice, no source).
+TEST(MapKind, EveryStrategyHasTheMapItsPredictionRuleGives) {
+  using learn::Strategy;
+  for (Strategy strategy : {Strategy::mask, Strategy::mask_robust, Strategy::partial, Strategy::partial_naive,
+                            Strategy::presence_mil, Strategy::points, Strategy::mixed, Strategy::grade_bounds,
+                            Strategy::threshold}) {
+    EXPECT_EQ(map_kind_of(strategy), scoring::MapKind::probability) << learn::to_string(strategy);
+    EXPECT_TRUE(map_is_probability(strategy));
+  }
+  EXPECT_EQ(map_kind_of(Strategy::count_map), scoring::MapKind::density);
+  EXPECT_EQ(map_kind_of(Strategy::line_filter), scoring::MapKind::response);
+  EXPECT_EQ(map_kind_of(Strategy::scalar), scoring::MapKind::none);
+}
+
 TEST(ExampleMaps, OutlinesAreDrawnVoxelForVoxelAndCountsAreNamedInTheCaption) {
   const Subject subject = generate_subject(streaks(2), 9, 2);
   const RaterOptions rater;
