@@ -82,6 +82,8 @@ std::string epoch_text(const learn::EpochProgress& progress, bool with_eta) {
   std::string text = "epoch " + std::to_string(progress.epoch) + "/" + std::to_string(progress.epochs) + ", loss " +
                      number_text("%.3g", progress.training_loss);
   if (std::isfinite(progress.validation_loss)) text += ", validation " + number_text("%.3g", progress.validation_loss);
+  if (std::isfinite(progress.validation_error))
+    text += " (error " + number_text("%.3g", progress.validation_error) + ")";
   text += ", " + number_text("%.0f", progress.images_per_second) + " images/s";
   if (with_eta) {
     // Epochs take about equally long; early stopping can only shorten this.
@@ -92,6 +94,13 @@ std::string epoch_text(const learn::EpochProgress& progress, bool with_eta) {
 }
 
 std::string hours(double value) { return number_text("%.2f", value); }
+
+// JSON has no NaN: an epoch without a value is null.
+json finite_or_null(const std::vector<double>& values) {
+  json out = json::array();
+  for (double value : values) out.push_back(std::isfinite(value) ? json(value) : json());
+  return out;
+}
 
 void run_train(TrainArguments& arguments) {
   learn::TrainOptions& options = arguments.options;
@@ -221,6 +230,9 @@ void run_train(TrainArguments& arguments) {
                          std::isfinite(summary.best_validation_loss) ? json(summary.best_validation_loss) : json()},
                         {"training_loss", summary.training_loss},
                         {"validation_loss", summary.validation_loss},
+                        {"best_validation_error",
+                         std::isfinite(summary.best_validation_error) ? json(summary.best_validation_error) : json()},
+                        {"validation_error", finite_or_null(summary.validation_error)},
                         {"seconds", summary.seconds},
                         {"images_per_second", summary.images_per_second}};
   if (!classical && options.network_file.empty())
@@ -242,9 +254,11 @@ void run_train(TrainArguments& arguments) {
   std::printf("trained %s on %s (%s annotator-hours paid)%s\n", arguments.strategy.c_str(), labels_text.c_str(),
               hours(paid_hours).c_str(),
               unlabelled > 0 ? (" and " + std::to_string(unlabelled) + " unlabelled images").c_str() : "");
-  const std::string validation = std::isfinite(summary.best_validation_loss)
-                                     ? ", validation loss " + std::to_string(summary.best_validation_loss)
-                                     : ", no validation split";
+  std::string validation = std::isfinite(summary.best_validation_loss)
+                               ? ", validation loss " + number_text("%.4g", summary.best_validation_loss)
+                               : ", no validation split";
+  if (std::isfinite(summary.best_validation_error))
+    validation += ", validation error " + number_text("%.4g", summary.best_validation_error);
   std::printf("%d epochs (best %d%s) in %.1f s, %.0f images/s; wrote %s (+ .json)\n", summary.epochs_run,
               summary.best_epoch, validation.c_str(), summary.seconds, summary.images_per_second,
               arguments.out.c_str());

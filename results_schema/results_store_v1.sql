@@ -62,7 +62,9 @@ CREATE TABLE training_curves (
   cell_key TEXT NOT NULL REFERENCES cells (key),
   epoch INTEGER NOT NULL,  -- 1-based
   training_loss REAL,      -- the strategy's loss on the training set in that epoch
-  validation_loss REAL     -- same loss on the validation split; NULL without one
+  validation_loss REAL,    -- same loss on the validation split; NULL without one
+  validation_error REAL    -- the epoch-selection criterion on the validation split (the answers'
+                           -- error against its labels); NULL without one or for partial masks
 );
 CREATE INDEX training_curves_cell_key ON training_curves (cell_key);
 

@@ -19,6 +19,7 @@
 #include "experiments/learn/memory_estimate.h"
 #include "experiments/learn/model_internal.h"
 #include "experiments/learn/strategy_losses_internal.h"
+#include "experiments/learn/validation_error.h"
 #include "phantoms/key_path.h"
 #include "phantoms/random.h"
 #include "phantoms/user_error.h"
@@ -273,6 +274,7 @@ TrainResult train(const TrainingSet& set, const TrainOptions& options,
   auto model = describe_model(set, options);
   TrainSummary summary;
   summary.best_validation_loss = std::numeric_limits<double>::quiet_NaN();
+  summary.best_validation_error = std::numeric_limits<double>::quiet_NaN();
   if (is_classical(options.strategy)) return {TrainedModel(std::move(model)), summary};
 
   torch::set_num_threads(options.threads);
@@ -312,6 +314,16 @@ TrainResult train(const TrainingSet& set, const TrainOptions& options,
   std::sort(summary.validation_subjects.begin(), summary.validation_subjects.end());
   summary.validation_subjects.erase(std::unique(summary.validation_subjects.begin(), summary.validation_subjects.end()),
                                     summary.validation_subjects.end());
+  // Epochs are chosen by the answers' error on the validation labels; partial masks, which say
+  // nothing of unmarked voxels, leave it to the loss (validation_error.h).
+  std::vector<const FloatImage*> validation_images;
+  std::vector<const Label*> validation_label_pointers;
+  bool selects_by_loss = false;
+  for (std::size_t i : validation) {
+    validation_images.push_back(&set.image(i));
+    validation_label_pointers.push_back(&set.label(i));
+    selects_by_loss = selects_by_loss || set.label(i).kind == LabelKind::partial_mask;
+  }
 
   // Normalisation from the training split: intensities, and the targets of scalar heads.
   double sum = 0.0, sum_squares = 0.0, voxels = 0.0;
@@ -454,13 +466,14 @@ TrainResult train(const TrainingSet& set, const TrainOptions& options,
     training_seconds += std::chrono::duration<double>(std::chrono::steady_clock::now() - epoch_start).count();
     summary.training_loss.push_back(loss_sum / static_cast<double>(training.size()));
     summary.epochs_run = epoch + 1;
-    const auto report = [&](double validation_loss) {
+    const auto report = [&](double validation_loss, double validation_error) {
       if (!on_epoch) return;
       EpochProgress progress;
       progress.epoch = epoch + 1;
       progress.epochs = options.epochs;
       progress.training_loss = summary.training_loss.back();
       progress.validation_loss = validation_loss;
+      progress.validation_error = validation_error;
       progress.images_per_second = training_seconds > 0.0 ? static_cast<double>(images_seen) / training_seconds : 0.0;
       progress.seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
       on_epoch(progress);
@@ -468,7 +481,7 @@ TrainResult train(const TrainingSet& set, const TrainOptions& options,
 
     if (validation.empty()) {
       summary.best_epoch = epoch + 1;
-      report(std::numeric_limits<double>::quiet_NaN());
+      report(std::numeric_limits<double>::quiet_NaN(), std::numeric_limits<double>::quiet_NaN());
       continue;
     }
     network->set_training(false);
@@ -484,13 +497,23 @@ TrainResult train(const TrainingSet& set, const TrainOptions& options,
       }
     }
     const double validation_loss = validation_sum / static_cast<double>(validation.size());
+    // The answers a user would read, against the validation labels (validation_error.h).
+    const double validation_error =
+        selects_by_loss ? std::numeric_limits<double>::quiet_NaN()
+                        : learn::validation_error(internal::predict_with(*model, *network, validation_images),
+                                                  validation_label_pointers, options);
     summary.validation_loss.push_back(validation_loss);
-    report(validation_loss);
-    if (validation_loss < best) {
-      best = validation_loss;
+    summary.validation_error.push_back(validation_error);
+    report(validation_loss, validation_error);
+    // Ties go to the later epoch: a criterion at 0 (every grade's fraction inside its bin) keeps
+    // training on the cosine schedule instead of stopping at the first such epoch.
+    const double criterion = selects_by_loss ? validation_loss : validation_error;
+    if (criterion <= best) {
+      best = criterion;
       best_state = network->state();
       summary.best_epoch = epoch + 1;
       summary.best_validation_loss = validation_loss;
+      summary.best_validation_error = validation_error;
       epochs_since_best = 0;
     } else if (options.patience > 0 && ++epochs_since_best >= options.patience) {
       break;

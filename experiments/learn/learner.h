@@ -152,6 +152,11 @@ struct TrainSummary {
   double best_validation_loss = 0.0;    // NaN when there was no validation split
   std::vector<double> training_loss;    // per epoch
   std::vector<double> validation_loss;  // per epoch (empty without a validation split)
+  // The selection criterion per epoch (validation_error.h): the answers' error against the
+  // validation labels; NaN for partial masks, whose epochs are chosen by validation loss. The
+  // kept epoch is the one with the smallest error (ties: the earlier).
+  std::vector<double> validation_error;
+  double best_validation_error = 0.0;  // NaN without a validation split or for partial masks
   double seconds = 0.0;
   double images_per_second = 0.0;  // training images through the optimiser
   // The validation split is drawn over images, (subject, rescan), not label rows: all labels
@@ -169,6 +174,7 @@ struct EpochProgress {
   double training_loss = 0.0;
   // NaN without a validation split.
   double validation_loss = std::numeric_limits<double>::quiet_NaN();
+  double validation_error = std::numeric_limits<double>::quiet_NaN();  // the selection criterion
   double images_per_second = 0.0;  // training images through the optimiser so far
   double seconds = 0.0;            // since train() began
 };
@@ -217,7 +223,8 @@ TrainResult train(const TrainingSet& set, const TrainOptions& options,
 //   count-map: map = density (lesions per voxel); count = sum of the map; presence =
 //     1 - exp(-count) (Poisson reading of the density).
 //   scalar: count, grade (a real-valued bin index) or presence probability, whichever label
-//     kind it was trained on.
+//     kind it was trained on; on grades also affected_fraction = fraction_of_grade(grade)
+//     (grade_fraction.h), so it answers the fraction grade-bounds answers.
 //   threshold: map = 1 below threshold_hu in the field; affected_fraction = that fraction.
 //   line-filter: map = the line filter's response; count = counted components.
 struct Prediction {

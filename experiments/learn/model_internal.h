@@ -67,5 +67,10 @@ class CpuAutocast {
 // The network's output for a batch in float32, under bfloat16 autocast when the model asks.
 NetworkOutput forward_float(Network& network, const torch::Tensor& input, bool bfloat16);
 
+// predict()'s rules for a network that is not in `model` yet (training's validation pass). The
+// network must be in evaluation mode; images must have the model's shape.
+std::vector<Prediction> predict_with(const TrainedModel::Impl& model, Network& network,
+                                     const std::vector<const FloatImage*>& images);
+
 }  // namespace internal
 }  // namespace frugal::learn

@@ -9,6 +9,7 @@
 
 #include "experiments/baselines/line_filter.h"
 #include "experiments/baselines/threshold.h"
+#include "experiments/learn/grade_fraction.h"
 #include "experiments/learn/learner.h"
 #include "experiments/learn/model_internal.h"
 #include "experiments/learn/strategy_losses_internal.h"
@@ -72,22 +73,12 @@ void read_probability_map(const TrainedModel::Impl& model, const FloatImage& ima
 
 }  // namespace
 
-std::vector<Prediction> predict(const TrainedModel& trained, const std::vector<FloatImage>& images, int threads) {
-  const TrainedModel::Impl& model = trained.impl();
-  if (threads < 1) throw UserError("predict: threads = " + std::to_string(threads) + ": must be at least 1");
-  std::vector<Prediction> predictions(images.size());
-  if (is_classical(model.options.strategy)) {
-    for (std::size_t i = 0; i < images.size(); ++i) predictions[i] = classical_prediction(model, images[i]);
-    return predictions;
-  }
-  for (std::size_t i = 0; i < images.size(); ++i)
-    if (images[i].shape() != model.shape)
-      throw UserError("predict: image " + std::to_string(i) + " is " + shape_text(images[i].shape()) +
-                      " but the model was trained on " + shape_text(model.shape));
-  torch::set_num_threads(threads);
+namespace internal {
+
+std::vector<Prediction> predict_with(const TrainedModel::Impl& model, Network& network,
+                                     const std::vector<const FloatImage*>& images) {
   torch::NoGradGuard no_grad;
-  internal::Network& network = *model.network;
-  network.set_training(false);
+  std::vector<Prediction> predictions(images.size());
   const std::size_t voxels = model.shape.voxel_count();
   constexpr std::size_t kBatch = 16;
   for (std::size_t first = 0; first < images.size(); first += kBatch) {
@@ -95,31 +86,32 @@ std::vector<Prediction> predict(const TrainedModel& trained, const std::vector<F
     std::vector<float> input(count * voxels);
     std::vector<float> one;
     for (std::size_t i = 0; i < count; ++i) {
-      internal::normalise_into(images[first + i], model, one);
+      normalise_into(*images[first + i], model, one);
       std::copy(one.begin(), one.end(), input.begin() + static_cast<std::ptrdiff_t>(i * voxels));
     }
-    const internal::NetworkOutput output = internal::forward_float(
-        network, internal::voxel_tensor(input, static_cast<int>(count), model), model.options.bfloat16);
+    const NetworkOutput output =
+        forward_float(network, voxel_tensor(input, static_cast<int>(count), model), model.options.bfloat16);
     if (model.options.strategy == Strategy::scalar) {
       for (std::size_t i = 0; i < count; ++i) {
         Prediction& prediction = predictions[first + i];
         const double raw = output.scalar[static_cast<std::int64_t>(i)].item<double>();
         const double value = raw * model.target_scale + model.target_mean;
         if (model.kind == LabelKind::count) prediction.count = std::max(0.0, value);
-        if (model.kind == LabelKind::grade)
+        if (model.kind == LabelKind::grade) {
           prediction.grade = std::clamp(value, 0.0, model.options.grading.bins() - 1.0);
+          prediction.affected_fraction = fraction_of_grade(prediction.grade, model.options.grading);
+        }
         if (model.kind == LabelKind::presence) prediction.presence_probability = 1.0 / (1.0 + std::exp(-raw));
       }
       continue;
     }
-    const torch::Tensor map =
-        internal::activate_map(output.map, model.options.strategy).contiguous();  // x-fastest voxels
+    const torch::Tensor map = activate_map(output.map, model.options.strategy).contiguous();  // x-fastest voxels
     torch::Tensor pooled;
     if (model.options.strategy == Strategy::presence_mil)
-      pooled = torch::sigmoid(internal::log_sum_exp_pool(output.map, model.options.pooling_sharpness)).contiguous();
+      pooled = torch::sigmoid(log_sum_exp_pool(output.map, model.options.pooling_sharpness)).contiguous();
     for (std::size_t i = 0; i < count; ++i) {
       Prediction& prediction = predictions[first + i];
-      const FloatImage& image = images[first + i];
+      const FloatImage& image = *images[first + i];
       prediction.map = FloatImage(image.geometry());
       const float* values = map.data_ptr<float>() + i * voxels;
       std::copy(values, values + voxels, prediction.map.data());
@@ -135,6 +127,28 @@ std::vector<Prediction> predict(const TrainedModel& trained, const std::vector<F
     }
   }
   return predictions;
+}
+
+}  // namespace internal
+
+std::vector<Prediction> predict(const TrainedModel& trained, const std::vector<FloatImage>& images, int threads) {
+  const TrainedModel::Impl& model = trained.impl();
+  if (threads < 1) throw UserError("predict: threads = " + std::to_string(threads) + ": must be at least 1");
+  if (is_classical(model.options.strategy)) {
+    std::vector<Prediction> predictions(images.size());
+    for (std::size_t i = 0; i < images.size(); ++i) predictions[i] = classical_prediction(model, images[i]);
+    return predictions;
+  }
+  for (std::size_t i = 0; i < images.size(); ++i)
+    if (images[i].shape() != model.shape)
+      throw UserError("predict: image " + std::to_string(i) + " is " + shape_text(images[i].shape()) +
+                      " but the model was trained on " + shape_text(model.shape));
+  torch::set_num_threads(threads);
+  internal::Network& network = *model.network;
+  network.set_training(false);
+  std::vector<const FloatImage*> pointers;
+  for (const FloatImage& image : images) pointers.push_back(&image);
+  return internal::predict_with(model, network, pointers);
 }
 
 IntensityShift intensity_shift(const TrainedModel& model, const FloatImage& image) {

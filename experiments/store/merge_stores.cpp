@@ -26,7 +26,8 @@ bool same(const SubjectPrediction& a, const SubjectPrediction& b) {
          same(a.predicted, b.predicted) && same(a.truth, b.truth);
 }
 bool same(const EpochRow& a, const EpochRow& b) {
-  return a.epoch == b.epoch && same(a.training_loss, b.training_loss) && same(a.validation_loss, b.validation_loss);
+  return a.epoch == b.epoch && same(a.training_loss, b.training_loss) && same(a.validation_loss, b.validation_loss) &&
+         same(a.validation_error, b.validation_error);
 }
 // `seconds` is the rater model's annotator time, a result, not a timing.
 bool same(const LabelCostRow& a, const LabelCostRow& b) {

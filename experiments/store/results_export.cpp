@@ -76,7 +76,7 @@ std::vector<Table> tidy_tables(const std::vector<CellRecord>& cells) {
       "metrics", with_factors({"test_set", "quantity", "metric", "value", "lower", "upper", "n", "note"}), {}};
   Table predictions{
       "predictions", with_factors({"test_set", "subject", "rescan", "quantity", "predicted", "truth"}), {}};
-  Table curves{"training_curves", with_factors({"epoch", "training_loss", "validation_loss"}), {}};
+  Table curves{"training_curves", with_factors({"epoch", "training_loss", "validation_loss", "validation_error"}), {}};
   Table costs{"label_costs", with_factors({"part", "subject", "rater", "kind", "seconds"}), {}};
   for (const CellRecord& cell : cells) {
     std::vector<Field> row = factors(cell);
@@ -94,7 +94,8 @@ std::vector<Table> tidy_tables(const std::vector<CellRecord>& cells) {
                                 text(p.quantity), real(p.predicted),  real(p.truth)};
     });
     add_rows(curves, cell, cell.training_curve, [](const EpochRow& e) {
-      return std::vector<Field>{integer(e.epoch), real(e.training_loss), real(e.validation_loss)};
+      return std::vector<Field>{integer(e.epoch), real(e.training_loss), real(e.validation_loss),
+                                real(e.validation_error)};
     });
     add_rows(costs, cell, cell.label_costs, [](const LabelCostRow& c) {
       return std::vector<Field>{text(c.part), integer(c.subject), integer(c.rater), text(c.kind), real(c.seconds)};

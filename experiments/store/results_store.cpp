@@ -91,7 +91,9 @@ CREATE TABLE training_curves (
   cell_key TEXT NOT NULL REFERENCES cells (key),
   epoch INTEGER NOT NULL,  -- 1-based
   training_loss REAL,      -- the strategy's loss on the training set in that epoch
-  validation_loss REAL     -- same loss on the validation split; NULL without one
+  validation_loss REAL,    -- same loss on the validation split; NULL without one
+  validation_error REAL    -- the epoch-selection criterion on the validation split (the answers'
+                           -- error against its labels); NULL without one or for partial masks
 );
 CREATE INDEX training_curves_cell_key ON training_curves (cell_key);
 
@@ -373,8 +375,8 @@ void configure_writer(const Connection& connection) {
     std::this_thread::sleep_for(std::chrono::milliseconds(10));
   }
   if (mode != "wal")
-    throw UserError(connection.path() + ": cannot use SQLite's WAL journal here (journal mode stays '" +
-                    mode + "'); put the store on a local disk");
+    throw UserError(connection.path() + ": cannot use SQLite's WAL journal here (journal mode stays '" + mode +
+                    "'); put the store on a local disk");
   // NORMAL in WAL mode: a commit survives a killed process; only power loss can drop the last ones.
   connection.execute("PRAGMA synchronous = NORMAL", "configuring the store");
 }
@@ -402,10 +404,10 @@ std::vector<float> pixels_from_bytes(const std::vector<unsigned char>& bytes) {
 }
 
 void delete_cell(const Connection& connection, const std::string& key) {
-  for (const char* sql : {"DELETE FROM metrics WHERE cell_key = ?1", "DELETE FROM predictions WHERE cell_key = ?1",
-                          "DELETE FROM training_curves WHERE cell_key = ?1",
-                          "DELETE FROM label_costs WHERE cell_key = ?1", "DELETE FROM example_maps WHERE cell_key = ?1",
-                          "DELETE FROM cells WHERE key = ?1"})
+  for (const char* sql :
+       {"DELETE FROM metrics WHERE cell_key = ?1", "DELETE FROM predictions WHERE cell_key = ?1",
+        "DELETE FROM training_curves WHERE cell_key = ?1", "DELETE FROM label_costs WHERE cell_key = ?1",
+        "DELETE FROM example_maps WHERE cell_key = ?1", "DELETE FROM cells WHERE key = ?1"})
     Statement(connection, sql).bind(1, key).run("replacing a failed cell");
 }
 
@@ -459,10 +461,15 @@ void insert_cell(const Connection& connection, const CellRecord& cell) {
         .bind(7, row.truth)
         .run(doing);
   Statement epoch(connection,
-                  "INSERT INTO training_curves (cell_key, epoch, training_loss, validation_loss) "
-                  "VALUES (?1, ?2, ?3, ?4)");
+                  "INSERT INTO training_curves (cell_key, epoch, training_loss, validation_loss, validation_error) "
+                  "VALUES (?1, ?2, ?3, ?4, ?5)");
   for (const EpochRow& row : cell.training_curve)
-    epoch.bind(1, cell.key).bind(2, row.epoch).bind(3, row.training_loss).bind(4, row.validation_loss).run(doing);
+    epoch.bind(1, cell.key)
+        .bind(2, row.epoch)
+        .bind(3, row.training_loss)
+        .bind(4, row.validation_loss)
+        .bind(5, row.validation_error)
+        .run(doing);
   Statement cost(connection,
                  "INSERT INTO label_costs (cell_key, part, subject, rater, kind, seconds) "
                  "VALUES (?1, ?2, ?3, ?4, ?5, ?6)");
@@ -627,8 +634,10 @@ std::vector<CellRecord> ResultsStore::cells() const {
         .predictions.push_back({prediction.text(1), prediction.integer(2), prediction.integer(3), prediction.text(4),
                                 prediction.real(5), prediction.real(6)});
   Statement epoch(connection,
-                  "SELECT cell_key, epoch, training_loss, validation_loss FROM training_curves ORDER BY rowid");
-  while (epoch.step(doing)) owner(epoch).training_curve.push_back({epoch.integer(1), epoch.real(2), epoch.real(3)});
+                  "SELECT cell_key, epoch, training_loss, validation_loss, validation_error FROM training_curves "
+                  "ORDER BY rowid");
+  while (epoch.step(doing))
+    owner(epoch).training_curve.push_back({epoch.integer(1), epoch.real(2), epoch.real(3), epoch.real(4)});
   Statement cost(connection, "SELECT cell_key, part, subject, rater, kind, seconds FROM label_costs ORDER BY rowid");
   while (cost.step(doing))
     owner(cost).label_costs.push_back({cost.text(1), cost.integer(2), cost.integer(3), cost.text(4), cost.real(5)});
@@ -636,8 +645,13 @@ std::vector<CellRecord> ResultsStore::cells() const {
                     "SELECT cell_key, role, subject, caption, scale, width, height, pixels FROM example_maps "
                     "ORDER BY rowid");
   while (picture.step(doing)) {
-    ExampleMap map{picture.text(1), picture.integer(2), picture.text(3), picture.text(4),
-                   picture.integer(5), picture.integer(6), pixels_from_bytes(picture.blob(7))};
+    ExampleMap map{picture.text(1),
+                   picture.integer(2),
+                   picture.text(3),
+                   picture.text(4),
+                   picture.integer(5),
+                   picture.integer(6),
+                   pixels_from_bytes(picture.blob(7))};
     if (map.width < 0 || map.height < 0 ||
         map.pixels.size() != static_cast<std::size_t>(map.width) * static_cast<std::size_t>(map.height))
       throw UserError(connection.path() + ": the results store is damaged (an example picture of cell " +

@@ -39,7 +39,8 @@ struct SubjectPrediction {
 struct EpochRow {
   int epoch = 0;  // 1-based
   double training_loss = 0.0;
-  double validation_loss = 0.0;  // NaN without a validation split
+  double validation_loss = 0.0;   // NaN without a validation split
+  double validation_error = 0.0;  // the selection criterion (learner.h); NaN without one
 };
 
 // One label a cell bought: which part of the plan it belongs to ("strong" or "weak" for mixed

@@ -9,10 +9,10 @@
 
 #include "corruptors/grade.h"
 #include "corruptors/labeler.h"
-#include "experiments/study/example_maps.h"
-#include "experiments/study/map_kind.h"
 #include "experiments/measure/kappa.h"
 #include "experiments/scoring/scoring.h"
+#include "experiments/study/example_maps.h"
+#include "experiments/study/map_kind.h"
 #include "phantoms/phantom.h"
 #include "phantoms/random.h"
 #include "phantoms/scenario_yaml.h"
@@ -243,7 +243,8 @@ const Subject& CohortCache::subject(const SubjectSource& source, int index, int 
   auto& set = subjects_[source.key];
   auto found = set.find({index, rescan});
   if (found == set.end())
-    found = set.emplace(std::make_pair(index, rescan), generate_subject(source.scenario, source.seed, index, rescan)).first;
+    found =
+        set.emplace(std::make_pair(index, rescan), generate_subject(source.scenario, source.seed, index, rescan)).first;
   return found->second;
 }
 
@@ -298,7 +299,8 @@ std::vector<int> purchase_order(std::uint64_t seed, int repeat, int pool) {
   for (int i = 0; i < pool; ++i) order[static_cast<std::size_t>(i)] = i;
   // Fisher-Yates from the study seed and repeat alone (Knuth, TAOCP vol. 2, algorithm P).
   RandomStream random(mix64(seed ^ 0x6F72646572ULL), static_cast<std::uint64_t>(repeat), StreamPurpose::rater, 1);
-  for (int i = pool - 1; i > 0; --i) std::swap(order[static_cast<std::size_t>(i)], order[static_cast<std::size_t>(random.uniform_int(0, i))]);
+  for (int i = pool - 1; i > 0; --i)
+    std::swap(order[static_cast<std::size_t>(i)], order[static_cast<std::size_t>(random.uniform_int(0, i))]);
   return order;
 }
 
@@ -315,7 +317,8 @@ CellResult cell_record(const CellSpec& spec, const std::string& status) {
   return result;
 }
 
-CellResult run_cell(const CellSpec& spec, CohortCache* shared_cache, const std::function<void(const CellProgress&)>& progress) {
+CellResult run_cell(const CellSpec& spec, CohortCache* shared_cache,
+                    const std::function<void(const CellProgress&)>& progress) {
   const auto report = [&](const std::string& stage, int epoch = 0, int epochs = 0) {
     if (progress) progress({stage, epoch, epochs});
   };
@@ -345,7 +348,8 @@ CellResult run_cell(const CellSpec& spec, CohortCache* shared_cache, const std::
     for (const auto& [part, plan] : parts) {
       const double share =
           part.empty() ? 1.0 : (part == "strong" ? spec.plan.strong_share : 1.0 - spec.plan.strong_share);
-      const Purchase purchase = buy(LabelSource(*plan, pool), spec, spec.budget * share, order, cache, generate_seconds);
+      const Purchase purchase =
+          buy(LabelSource(*plan, pool), spec, spec.budget * share, order, cache, generate_seconds);
       for (const Label* label : purchase.labels) {
         const Subject& subject = cache.subject(pool, label->subject, 0);
         if (result.example_maps.empty()) result.example_maps = label_example_maps(subject, *label);
@@ -422,13 +426,13 @@ CellResult run_cell(const CellSpec& spec, CohortCache* shared_cache, const std::
     options.epochs = std::clamp(static_cast<int>(std::lround(spec.training_images / per_epoch)), 1, spec.train.epochs);
   }
   report("train", 0, options.epochs);
-  learn::TrainResult trained = learn::train(training, options, [&](const learn::EpochProgress& epoch) {
-    report("train", epoch.epoch, epoch.epochs);
-  });
-  for (std::size_t e = 0; e < trained.summary.training_loss.size(); ++e)
-    result.training_curve.push_back({static_cast<int>(e) + 1, trained.summary.training_loss[e],
-                                     e < trained.summary.validation_loss.size() ? trained.summary.validation_loss[e]
-                                                                                : kNaN});
+  learn::TrainResult trained = learn::train(
+      training, options, [&](const learn::EpochProgress& epoch) { report("train", epoch.epoch, epoch.epochs); });
+  const learn::TrainSummary& summary = trained.summary;
+  const auto at = [](const std::vector<double>& values, std::size_t e) { return e < values.size() ? values[e] : kNaN; };
+  for (std::size_t e = 0; e < summary.training_loss.size(); ++e)
+    result.training_curve.push_back({static_cast<int>(e) + 1, summary.training_loss[e], at(summary.validation_loss, e),
+                                     at(summary.validation_error, e)});
   result.seconds_train = seconds_since(train_start);
 
   // Predictions on every test set.
@@ -463,7 +467,8 @@ CellResult run_cell(const CellSpec& spec, CohortCache* shared_cache, const std::
   report("score");
   const auto score_start = Clock::now();
   score_set(result, spec, "test", test, test_predictions);
-  if (spec.cohort.decorrelated_test) score_set(result, spec, "decorrelated", decorrelated_test, decorrelated_predictions);
+  if (spec.cohort.decorrelated_test)
+    score_set(result, spec, "decorrelated", decorrelated_test, decorrelated_predictions);
   if (spec.cohort.test_rescans > 0) {
     for (std::size_t r = 0; r < rescans.size(); ++r)
       for (std::size_t i = 0; i < rescans[r].size(); ++i)
@@ -475,7 +480,8 @@ CellResult run_cell(const CellSpec& spec, CohortCache* shared_cache, const std::
       std::vector<std::vector<double>> measurements(test.size());
       for (std::size_t i = 0; i < test.size(); ++i) {
         measurements[i].push_back(predicted_value(quantity, test_predictions[i]));
-        for (const auto& predictions : rescan_predictions) measurements[i].push_back(predicted_value(quantity, predictions[i]));
+        for (const auto& predictions : rescan_predictions)
+          measurements[i].push_back(predicted_value(quantity, predictions[i]));
       }
       const scoring::RepeatabilityScore score = scoring::score_repeatability(quantity, measurements);
       const std::string note = score.notes.empty() ? "n/a" : joined(score.notes);

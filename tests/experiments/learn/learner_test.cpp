@@ -1,6 +1,7 @@
 // Each strategy against its trivial baseline on a small fixed problem, plus determinism,
 // checkpoints and bad checkpoints. Seeds are fixed and printed; truth only scores.
 #include "experiments/learn/learner.h"
+#include "experiments/learn/grade_fraction.h"
 #include "experiments/learn/train_options_json.h"
 
 #include <gtest/gtest.h>
@@ -199,12 +200,52 @@ TEST(EpochProgress, ReportsEveryEpochAsTheSummaryRecordsIt) {
     EXPECT_EQ(reports[k].epochs, 3);
     EXPECT_EQ(reports[k].training_loss, summary.training_loss[k]);
     EXPECT_EQ(reports[k].validation_loss, summary.validation_loss[k]);
+    EXPECT_EQ(reports[k].validation_error, summary.validation_error[k]);
     EXPECT_GT(reports[k].images_per_second, 0.0);
     if (k > 0) {
       EXPECT_GE(reports[k].seconds, reports[k - 1].seconds);
     }
   }
   EXPECT_LE(reports.back().seconds, summary.seconds);
+}
+
+// The kept epoch is the one whose answers on the validation labels are closest (count error
+// for counts), the later of equals; the summary records that criterion for every epoch
+// (validation_error.h).
+TEST(ModelSelection, KeepsTheLastEpochWithTheSmallestValidationError) {
+  PanelProblem problem = panel_problem(12, 1);
+  problem.options.epochs = 4;
+  problem.options.patience = 0;
+  const TrainSummary summary = train(problem.set, problem.options).summary;
+  ASSERT_EQ(summary.validation_error.size(), 4U);
+  std::size_t best = 0;
+  for (std::size_t k = 0; k < summary.validation_error.size(); ++k) {
+    EXPECT_TRUE(std::isfinite(summary.validation_error[k])) << k;
+    if (summary.validation_error[k] <= summary.validation_error[best]) best = k;
+  }
+  EXPECT_EQ(summary.best_epoch, static_cast<int>(best) + 1);
+  EXPECT_EQ(summary.best_validation_error, summary.validation_error[best]);
+  EXPECT_EQ(summary.best_validation_loss, summary.validation_loss[best]);
+}
+
+// Scalar regression on grades answers the affected fraction too, through the bins' middles
+// (grade_fraction.h), so it is scored on the quantity grade-bounds answers.
+TEST(Scalar, OnGradesAlsoAnswersTheAffectedFraction) {
+  const ScenarioOptions scenario = small_scenario(Family::voids, 32);
+  const auto subjects = draw_subjects(scenario, kSeed, 0, 12);
+  const RaterOptions rater = careful_rater();
+  TrainOptions options = quick_options(Strategy::scalar);
+  options.epochs = 2;
+  options.width = 4;
+  options.depth = 2;
+  options.grading = rater.grading;
+  const TrainResult result =
+      train(training_set(subjects, buy_labels(subjects, LabelKind::grade, rater, kSeed)), options);
+  for (const Prediction& prediction : predict(result.model, images_of(subjects))) {
+    ASSERT_TRUE(std::isfinite(prediction.grade));
+    EXPECT_DOUBLE_EQ(prediction.affected_fraction, fraction_of_grade(prediction.grade, rater.grading));
+    EXPECT_TRUE(std::isnan(prediction.count));
+  }
 }
 
 // The voids family's default field (common practice, no source: lungs are below about -400 HU,

@@ -80,7 +80,8 @@ CellRecord cell(const std::string& key, int index, const std::string& status = "
   for (int s = 0; s < 3 + index % 5; ++s)
     c.predictions.push_back({s % 2 == 0 ? "test" : "rescan", 1000 + s, s % 2, "count", 2.5 * s + 0.1,
                              s == 2 ? kNaN : static_cast<double>(s)});
-  for (int e = 1; e <= 1 + index % 6; ++e) c.training_curve.push_back({e, 1.0 / e, e % 2 == 0 ? kNaN : 2.0 / e});
+  for (int e = 1; e <= 1 + index % 6; ++e)
+    c.training_curve.push_back({e, 1.0 / e, e % 2 == 0 ? kNaN : 2.0 / e, e % 3 == 0 ? kNaN : 0.5 / e});
   for (int l = 0; l < 4 + index % 3; ++l)
     c.label_costs.push_back({index % 2 == 0 ? "" : (l % 2 == 0 ? "strong" : "weak"), 20 + l, l % 3,
                              l % 2 == 0 ? "count" : "outline", 12.5 + l});
