@@ -7,12 +7,9 @@
 #include <cmath>
 #include <cstdio>
 #include <filesystem>
-#include <map>
 #include <memory>
 #include <nlohmann/json.hpp>
-#include <set>
 #include <string>
-#include <utility>
 #include <vector>
 
 #include "cli/commands.h"
@@ -26,7 +23,6 @@
 #include "experiments/learn/training_set_files.h"
 #include "frugal_version.h"
 #include "phantoms/folder_manifest.h"
-#include "phantoms/nifti_io.h"
 #include "phantoms/phantom_set_reader.h"
 #include "phantoms/regular_file.h"
 #include "phantoms/user_error.h"
