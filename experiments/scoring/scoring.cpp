@@ -424,6 +424,7 @@ nlohmann::json to_json(const ScoreReport& report) {
                     {"presence_threshold", report.options.presence_threshold},
                     {"map_threshold", report.options.map_threshold},
                     {"detection_minimum_iou", report.options.detection.minimum_iou},
+                    {"detection_connectivity", report.options.detection.connectivity.connectivity},
                     {"confidence", report.options.confidence}};
   json quantities = json::object();
   for (const QuantityScore& q : report.quantities) {
