@@ -102,7 +102,7 @@ struct TrainOptions {
   double gce_q = 0.7;                // generalized cross entropy's q in (0, 1] (Zhang & Sabuncu's 0.7)
   double bootstrap_beta = 0.8;       // hard bootstrapping's weight on the given label (Reed et al.'s 0.8)
   double label_smoothing = 0.1;      // label smoothing's epsilon in [0, 0.5)
-  double background_prior = 0.05;    // partial, points: weight of "unmarked voxels are mostly background"
+  double background_prior = 0.05;    // partial: per-voxel weight of unmarked voxels as background; points: weight of the background mean
   double pooling_sharpness = 4.0;    // presence-mil: r of log-sum-exp pooling (large r -> max)
   double point_radius_mm = 1.0;      // points: voxels this close to a click are positives
   double object_size_min_mm3 = 2.0;  // points: size prior per click, in mm^3 (2D: mm^2 x slice)

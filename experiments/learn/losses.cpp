@@ -49,6 +49,16 @@ torch::Tensor marked_voxel_loss(const torch::Tensor& logits, const torch::Tensor
          prior_weight * (towards_background * unmarked).sum() / torch::clamp_min(unmarked.sum(), 1.0);
 }
 
+torch::Tensor positive_unlabelled_loss(const torch::Tensor& logits, const torch::Tensor& marked,
+                                       double unmarked_weight) {
+  const torch::Tensor towards_lesion =
+      torch::binary_cross_entropy_with_logits(logits, torch::ones_like(logits), {}, {}, torch::Reduction::None);
+  const torch::Tensor towards_background =
+      torch::binary_cross_entropy_with_logits(logits, torch::zeros_like(logits), {}, {}, torch::Reduction::None);
+  const double voxels = static_cast<double>(logits.numel());
+  return ((towards_lesion * marked).sum() + unmarked_weight * (towards_background * (1.0 - marked)).sum()) / voxels;
+}
+
 }  // namespace internal
 
 FractionInterval grade_fraction_interval(int grade, const GradingOptions& grading) {

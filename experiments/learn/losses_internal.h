@@ -35,4 +35,14 @@ torch::Tensor bootstrapped_target(const torch::Tensor& logits, const torch::Tens
 // unmarked voxels): partial labels say where lesions are, not where they are not.
 torch::Tensor marked_voxel_loss(const torch::Tensor& logits, const torch::Tensor& marked, double prior_weight);
 
+// partial's loss: positive-unlabelled learning by weighted logistic regression (Lee & Liu,
+// "Learning with positive and unlabeled examples using weighted logistic regression", ICML 2003;
+// from memory): marked voxels are positives with weight 1, unmarked (unlabelled) voxels are
+// negatives with weight `unmarked_weight` < 1, both summed per voxel and divided by the batch's
+// voxel count. The map is then above 0.5 where P(marked | x) > w / (1 + w); when the rater marks
+// a share c of lesion voxels, lesion voxels have P(marked | x) near c (Elkan & Noto, KDD 2008), so
+// w well below c / (2 - c) keeps unmarked lesions above 0.5 while background stays below.
+torch::Tensor positive_unlabelled_loss(const torch::Tensor& logits, const torch::Tensor& marked,
+                                       double unmarked_weight);
+
 }  // namespace frugal::learn::internal

@@ -220,7 +220,7 @@ torch::Tensor batch_loss(Network& network, const TrainedModel::Impl& model, Batc
     case Strategy::partial_naive:
       return outline_loss(map, voxels_of(batch.targets), model.options.strategy, options);
     case Strategy::partial:
-      return marked_voxel_loss(map, voxels_of(batch.targets), options.background_prior);
+      return positive_unlabelled_loss(map, voxels_of(batch.targets), options.background_prior);
     case Strategy::count_map: {
       const torch::Tensor counts = torch::softplus(map).sum(reduce);
       const torch::Tensor loss = count_loss(counts, vector_tensor(batch.values), vector_tensor(batch.capped)).mean();

@@ -2,6 +2,7 @@
 // Small fixed problems for the learning tests: phantoms drawn by generate_subject, labels bought
 // from a careful rater through make_label. Truth is used only to score predictions.
 
+#include <algorithm>
 #include <cmath>
 #include <cstdint>
 #include <numeric>
@@ -10,6 +11,7 @@
 #include "corruptors/labeler.h"
 #include "experiments/learn/learner.h"
 #include "experiments/measure/connected_components.h"
+#include "experiments/measure/detection_matching.h"
 #include "phantoms/phantom.h"
 #include "phantoms/scenario.h"
 
@@ -149,6 +151,47 @@ inline double lesion_recall(const std::vector<Prediction>& predictions, const st
     for (int c = 1; c <= components.count; ++c) found += hit[static_cast<std::size_t>(c)] ? 1.0 : 0.0;
   }
   return found / lesions;
+}
+
+// Lesion-wise and voxel-wise scores of probability maps against the true lesion masks, pooled
+// over images the way `frugal score` pools them: lesions are the connected components of the
+// lesion code and of map > 0.5, matched one-to-one at IoU >= 0.1 (measure::match_detections).
+struct SegmentationScores {
+  double recall = 0.0;            // matched true lesions / true lesions
+  double precision = 0.0;         // matched predicted lesions / predicted lesions
+  double dice = 0.0;              // pooled Dice of map > 0.5 against the lesion voxels
+  double area_ratio = 0.0;        // voxels with map > 0.5 / true lesion voxels
+  double mean_probability = 0.0;  // mean map value over every voxel of every image
+};
+
+inline SegmentationScores segmentation_scores(const std::vector<Prediction>& predictions,
+                                              const std::vector<Subject>& subjects) {
+  double true_positives = 0.0, truth_lesions = 0.0, predicted_lesions = 0.0;
+  double overlap = 0.0, marked_voxels = 0.0, lesion_voxels = 0.0, probability = 0.0, voxels = 0.0;
+  for (std::size_t i = 0; i < subjects.size(); ++i) {
+    const LabelImage& labels = subjects[i].labels;
+    LabelImage truth(labels.geometry(), 0), marked(labels.geometry(), 0);
+    for (std::size_t v = 0; v < labels.size(); ++v) {
+      truth.data()[v] = labels.data()[v] == kLesion ? 1 : 0;
+      marked.data()[v] = predictions[i].map.data()[v] > 0.5F ? 1 : 0;
+      overlap += truth.data()[v] & marked.data()[v];
+      lesion_voxels += truth.data()[v];
+      marked_voxels += marked.data()[v];
+      probability += predictions[i].map.data()[v];
+    }
+    voxels += static_cast<double>(labels.size());
+    const measure::DetectionResult detection = measure::match_detections(truth, marked);
+    true_positives += detection.true_positives;
+    truth_lesions += detection.truth_lesions;
+    predicted_lesions += detection.predicted_lesions;
+  }
+  SegmentationScores scores;
+  scores.recall = truth_lesions > 0 ? true_positives / truth_lesions : 1.0;
+  scores.precision = predicted_lesions > 0 ? true_positives / predicted_lesions : 1.0;
+  scores.dice = 2.0 * overlap / std::max(1.0, marked_voxels + lesion_voxels);
+  scores.area_ratio = marked_voxels / std::max(1.0, lesion_voxels);
+  scores.mean_probability = probability / voxels;
+  return scores;
 }
 
 }  // namespace frugal::learn::testing

@@ -92,23 +92,39 @@ TEST(MaskRobust, EveryRobustLossTrains) {
   }
 }
 
-// partial against partial-naive on the same region-grown labels: a partial mask marks only the
-// most conspicuous lesions, so reading unmarked voxels as background teaches the network to
-// miss the rest. Requirement: higher lesion-wise recall than the naive variant by at least 0.1,
-// and at least 0.5 (the naive reading is the trivial baseline here; common practice, no source).
-TEST(Partial, FindsMoreLesionsThanTheNaiveReading) {
-  const Problem problem = draw_problem(counting_scenario());
-  RaterOptions rater = careful_rater();
-  rater.region_grow.seeds = 2;
-  const auto labels = buy_labels(problem.train, LabelKind::partial_mask, rater, kSeed);
-  const auto partial = train_and_predict(problem, labels, quick_options(Strategy::partial));
-  const auto naive = train_and_predict(problem, labels, quick_options(Strategy::partial_naive));
-  const double partial_recall = lesion_recall(partial, problem.test);
-  const double naive_recall = lesion_recall(naive, problem.test);
-  std::printf("lesion recall: partial %.3f, partial-naive %.3f; pooled Dice: partial %.3f, naive %.3f\n",
-              partial_recall, naive_recall, pooled_dice(partial, problem.test), pooled_dice(naive, problem.test));
-  EXPECT_GE(partial_recall, naive_recall + 0.1);
-  EXPECT_GE(partial_recall, 0.5);
+// partial against partial-naive on the same region-grown labels, over two seeds (problem,
+// labels and training all drawn from the seed). A partial mask marks only the most conspicuous
+// lesions (here 3 per image: about 0.6 of them, under half of the lesion area), so reading unmarked voxels
+// as background teaches the network to miss the rest, and over-weighting the marked voxels
+// marks everything (the old loss: precision 0.43). Lesions are matched one-to-one at IoU >= 0.1 as `frugal score`
+// matches them (segmentation_scores). Requirements (common practice, no source; measured 0.98-1.00 recall, 0.94-0.96
+// precision, area 0.83-0.85 with bfloat16, docs/learning.md):
+//   - matched-lesion recall >= 0.9 and >= the naive reading's + 0.15 (naive: 0.69-0.73);
+//   - matched-lesion precision >= 0.85 (does not find them by marking everything);
+//   - area of map > 0.5 within [0.7, 1.2] x the true lesion area (the old loss gave 1.6-2.1).
+TEST(Partial, FindsTheUnmarkedLesionsOneToOne) {
+  for (const std::uint64_t seed : {kSeed, kSeed + 1000}) {
+    std::printf("seed %llu\n", static_cast<unsigned long long>(seed));
+    const Problem problem{draw_subjects(counting_scenario(), seed, 0, kTrainSubjects),
+                          draw_subjects(counting_scenario(), seed, kTrainSubjects, kTestSubjects)};
+    const RaterOptions rater = careful_rater();  // region_grow.seeds = 3, the rater default
+    const auto labels = buy_labels(problem.train, LabelKind::partial_mask, rater, seed);
+    TrainOptions options = quick_options(Strategy::partial);
+    options.seed = seed;
+    const SegmentationScores partial = segmentation_scores(train_and_predict(problem, labels, options), problem.test);
+    options.strategy = Strategy::partial_naive;
+    const SegmentationScores naive = segmentation_scores(train_and_predict(problem, labels, options), problem.test);
+    std::printf(
+        "partial: recall %.3f, precision %.3f, Dice %.3f, area ratio %.3f; partial-naive: recall %.3f, "
+        "precision %.3f, Dice %.3f, area ratio %.3f\n",
+        partial.recall, partial.precision, partial.dice, partial.area_ratio, naive.recall, naive.precision, naive.dice,
+        naive.area_ratio);
+    EXPECT_GE(partial.recall, 0.9) << "seed " << seed;
+    EXPECT_GE(partial.recall, naive.recall + 0.15) << "seed " << seed;
+    EXPECT_GE(partial.precision, 0.85) << "seed " << seed;
+    EXPECT_GE(partial.area_ratio, 0.7) << "seed " << seed;
+    EXPECT_LE(partial.area_ratio, 1.2) << "seed " << seed;
+  }
 }
 
 // Area under the ROC curve by the Mann-Whitney statistic, ties counted half (Hanley & McNeil,
@@ -299,8 +315,8 @@ TEST(Threshold, PredictsTheBaselineFraction) {
   options.field.drop_border_connected = true;
   const TrainResult result = train(TrainingSet{}, options);
   // A checkpoint of a classical strategy holds only its options; it predicts the same.
-  const std::string path = std::string(std::getenv("TEST_TMPDIR") ? std::getenv("TEST_TMPDIR") : ".") +
-                           "/threshold_checkpoint.pt";
+  const std::string path =
+      std::string(std::getenv("TEST_TMPDIR") ? std::getenv("TEST_TMPDIR") : ".") + "/threshold_checkpoint.pt";
   result.model.save(path);
   const TrainedModel loaded = TrainedModel::load(path);
   EXPECT_EQ(loaded.strategy(), Strategy::threshold);
