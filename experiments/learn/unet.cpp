@@ -52,6 +52,15 @@ UNetImpl::UNetImpl(const UNetOptions& options) : options_(options) {
   const double bound = 1.0 / std::sqrt(static_cast<double>(options.width()));
   head_weight_ = register_parameter("head_weight", torch::empty(head_shape).uniform_(-bound, bound));
   head_bias_ = register_parameter("head_bias", torch::empty({options.map_channels()}).uniform_(-bound, bound));
+  // Prior-probability initialisation of the map's bias (Lin et al. 2017, focal loss, section 4.1):
+  // sigmoid(bias) = 0.01, a rare foreground, so the first steps are not spent pulling a map that
+  // starts at 0.5 everywhere down to the background. The uniform draw above is kept so that the
+  // weights drawn after it do not change. Strategies with their own prior set it again
+  // (set_map_bias).
+  {
+    torch::NoGradGuard no_grad;
+    head_bias_.fill_(std::log(0.01 / 0.99));
+  }
   scalar_head_ = register_module("scalar_head", torch::nn::Linear(channels(depth - 1), 1));
 }
 
@@ -140,9 +149,7 @@ class UNetNetwork : public Network {
     net_->map_bias().fill_(value);
     return true;
   }
-  void save(std::ostream& out, const std::string& meta_json) override {
-    save_archive(out, meta_json, net_.get());
-  }
+  void save(std::ostream& out, const std::string& meta_json) override { save_archive(out, meta_json, net_.get()); }
   void load(torch::serialize::InputArchive& archive) {
     net_->load(archive);
     if (channels_last_) to_channels_last(*net_, dims_);
