@@ -114,7 +114,8 @@ class FieldDefaultsTest(unittest.TestCase):
         code, terminal = stderr_on_a_terminal(*arguments, "--out", path("grade-bounds-terminal.pt"))
         self.assertEqual(code, 0, terminal)
         self.assertIn("train [", terminal)
-        self.assertRegex(terminal, r"epoch 1/2, loss [0-9.e+-]+, validation [0-9.e+-]+, [0-9]+ images/s, ETA [0-9]+ s")
+        self.assertRegex(terminal, r"epoch 1/2, loss [0-9.e+-]+, validation [0-9.e+-]+ \(error [0-9.e+-]+\), "
+                                   r"[0-9]+ images/s, ETA [0-9]+ s")
         self.assertIn("epoch 2/2", terminal)
 
 
