@@ -397,7 +397,7 @@ TEST(StudyYamlBundledStudies, AgeingCohortReadsAsWritten) {
   EXPECT_EQ(study.budgets, (std::vector<double>{1.0, 2.0, 4.0, 8.0, 16.0, 32.0}));
   EXPECT_EQ(study.budget_unit, BudgetUnit::hours);
   EXPECT_EQ(study.repeats, 3);
-  EXPECT_EQ(study.training_images, 2400);
+  EXPECT_EQ(study.training_images, 2200);
   EXPECT_EQ(study.train.epochs, 30);
   EXPECT_EQ(study.train.patience, 6);
   EXPECT_EQ(study.quantities, (std::vector<std::string>{"count"}));
