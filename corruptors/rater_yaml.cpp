@@ -1,5 +1,6 @@
 #include "corruptors/rater_yaml.h"
 
+#include "phantoms/key_path.h"
 #include "phantoms/text_format.h"
 
 #include <cstdio>
@@ -86,7 +87,7 @@ RaterOptions read_rater(const YAML::Node& root, const std::string& file) {
   });
   fields.finish();
   if (std::string error = options.validate(); !error.empty()) {
-    const int line = line_of_key_path(root, error.substr(0, error.find_first_of(" :")));
+    const int line = line_of_key_path(root, key_path_of(error));
     throw UserError(file + (line > 0 ? ":" + std::to_string(line) : std::string()) + ": " + error +
                     " (see docs/raters.md)");
   }

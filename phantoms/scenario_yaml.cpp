@@ -1,5 +1,6 @@
 #include "phantoms/scenario_yaml.h"
 
+#include "phantoms/key_path.h"
 #include "phantoms/user_error.h"
 #include "phantoms/yaml_fields.h"
 
@@ -250,7 +251,7 @@ ScenarioOptions read_scenario(const YAML::Node& root, const std::string& file) {
   }
   fields.finish();
   if (std::string error = options.validate(); !error.empty()) {
-    const int line = line_of_key_path(root, error.substr(0, error.find_first_of(" :")));
+    const int line = line_of_key_path(root, key_path_of(error));
     throw UserError(file + (line > 0 ? ":" + std::to_string(line) : std::string()) + ": " + error +
                     " (see docs/scenarios.md)");
   }
