@@ -151,6 +151,7 @@ int main(int argc, char** argv) {
   frugal::cli::add_plan_command(app);
   frugal::cli::add_report_command(app);
   frugal::cli::add_demo_command(app);
+  frugal::cli::add_validate_command(app);
   // Every command's --seed, here once rather than in each command file.
   for (CLI::App* command : app.get_subcommands([](CLI::App*) { return true; }))
     if (CLI::Option* seed = command->get_option_no_throw("--seed"); seed != nullptr)
@@ -164,6 +165,9 @@ int main(int argc, char** argv) {
   } catch (const frugal::UserError& error) {
     std::fprintf(stderr, "frugal: error: %s\n", error.what());
     return 2;
+  } catch (const frugal::cli::ChecksFailed& failure) {
+    std::fprintf(stderr, "frugal: %s\n", failure.what());
+    return 3;
   } catch (const std::exception& error) {
     std::fprintf(stderr, "frugal: error: %s\n", error.what());
     return 1;

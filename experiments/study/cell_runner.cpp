@@ -10,6 +10,7 @@
 #include "corruptors/grade.h"
 #include "corruptors/labeler.h"
 #include "experiments/measure/kappa.h"
+#include "experiments/measure/map_mass.h"
 #include "experiments/scoring/scoring.h"
 #include "experiments/study/example_maps.h"
 #include "experiments/study/map_kind.h"
@@ -163,6 +164,32 @@ GradingOptions grading_of(const CellSpec& spec) {
   return spec.train.grading;
 }
 
+// Where a density map's mass lies (map_mass.h), pooled over the set: per lesion, per look-alike
+// and away from every object. A map that counts by finding lesions puts little on look-alikes.
+void add_density_mass_metrics(CellResult& result, const std::string& set_name,
+                              const std::vector<const Subject*>& subjects,
+                              const std::vector<learn::Prediction>& predictions) {
+  measure::MapMass pooled;
+  int images = 0;
+  for (std::size_t i = 0; i < subjects.size(); ++i) {
+    if (predictions[i].map.empty()) continue;
+    measure::ObjectCounts objects;
+    for (const ObjectRecord& object : subjects[i]->truth.objects) {
+      if (object.kind == ObjectKind::lesion) ++objects.lesions;
+      if (object.kind == ObjectKind::dot_distractor) ++objects.dots;
+      if (object.kind == ObjectKind::line_distractor) ++objects.lines;
+    }
+    pooled += measure::map_mass(predictions[i].map, subjects[i]->labels, objects);
+    ++images;
+  }
+  const std::string none = "n/a: no such object in the test set";
+  add_metric(result, set_name, "map", "mass_per_lesion", pooled.per_lesion(), pooled.objects.lesions, none);
+  add_metric(result, set_name, "map", "mass_per_dot", pooled.per_dot(), pooled.objects.dots, none);
+  add_metric(result, set_name, "map", "mass_per_line", pooled.per_line(), pooled.objects.lines, none);
+  add_metric(result, set_name, "map", "mass_share_elsewhere", pooled.share_elsewhere(), images,
+             "n/a: the maps hold no mass");
+}
+
 void score_set(CellResult& result, const CellSpec& spec, const std::string& set_name,
                const std::vector<const Subject*>& subjects, const std::vector<learn::Prediction>& predictions) {
   const GradingOptions grading = grading_of(spec);
@@ -194,6 +221,10 @@ void score_set(CellResult& result, const CellSpec& spec, const std::string& set_
     scoring::QuantityScore score = scoring::score_quantity(quantity, predicted, truth);
     if (quantity == "grade") score.weighted_kappa = rounded_grade_kappa(predicted, truth, grading, score.notes);
     add_quantity_metrics(result, set_name, score);
+  }
+  if (map_kind_of(spec.train.strategy) == scoring::MapKind::density) {
+    add_density_mass_metrics(result, set_name, subjects, predictions);
+    return;
   }
   if (!map_is_probability(spec.train.strategy)) return;
   scoring::ScoreOptions options;
