@@ -3,6 +3,8 @@
 #include <algorithm>
 #include <cmath>
 
+#include "experiments/validate/pattern_check.h"
+
 
 namespace frugal::validation {
 namespace {
@@ -207,6 +209,13 @@ std::vector<Phenomenon> canonical_phenomena() {
          "count MAE rise on a decorrelated test set, scalar minus count-map",
          "shortcut learning: Geirhos et al. 2020; confounded radiograph models: Zech et al. 2018", 0.10}},
        confounder});
+  phenomena.push_back(
+      {8,
+       "void patterns",
+       {{"8", "void patterns matched on densitometry are still told apart by a pattern classifier",
+         "held-out accuracy, texture classifier minus the same classifier on densitometry alone",
+         "texture classification of emphysema patterns: Sorensen et al. 2010", 0.30}},
+       pattern_separability});
   return phenomena;
 }
 
