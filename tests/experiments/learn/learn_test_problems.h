@@ -134,25 +134,6 @@ inline double pooled_dice(const std::vector<Prediction>& predictions, const std:
   return 2.0 * overlap / (marked_voxels + lesion_voxels);
 }
 
-// Share of true lesions (connected components of the lesion code) that the map marks (> 0.5)
-// on at least one of their voxels.
-inline double lesion_recall(const std::vector<Prediction>& predictions, const std::vector<Subject>& subjects) {
-  double found = 0.0, lesions = 0.0;
-  for (std::size_t i = 0; i < subjects.size(); ++i) {
-    LabelImage lesion_mask(subjects[i].labels.geometry(), 0);
-    for (std::size_t v = 0; v < lesion_mask.size(); ++v)
-      lesion_mask.data()[v] = subjects[i].labels.data()[v] == kLesion;
-    const auto components = measure::label_components(lesion_mask);
-    std::vector<bool> hit(static_cast<std::size_t>(components.count) + 1, false);
-    for (std::size_t v = 0; v < lesion_mask.size(); ++v)
-      if (components.labels.data()[v] > 0 && predictions[i].map.data()[v] > 0.5F)
-        hit[static_cast<std::size_t>(components.labels.data()[v])] = true;
-    lesions += components.count;
-    for (int c = 1; c <= components.count; ++c) found += hit[static_cast<std::size_t>(c)] ? 1.0 : 0.0;
-  }
-  return found / lesions;
-}
-
 // Lesion-wise and voxel-wise scores of probability maps against the true lesion masks, pooled
 // over images the way `frugal score` pools them: lesions are the connected components of the
 // lesion code and of map > 0.5, matched one-to-one at IoU >= 0.1 (measure::match_detections).

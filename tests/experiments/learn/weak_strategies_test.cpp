@@ -143,7 +143,9 @@ double roc_auc(const std::vector<double>& scores, const std::vector<bool>& posit
 // presence-mil from presence flags only: ROC AUC of the pooled presence against true presence
 // >= 0.85, where a constant (the trivial baseline) scores 0.5; lesions here are 6-12 mm and
 // clearly visible, so a working MIL pooling separates most images (common practice, no source).
-// Also the map localises: lesion-wise recall above 0.3 though no voxel was ever labelled.
+// Also the map localises though no voxel was ever labelled: lesions matched one to one at
+// IoU >= 0.1 (as frugal score matches), recall >= 0.75 and precision >= 0.8 (measured 0.96 and
+// 1.00; marking nothing scores 0).
 TEST(PresenceMil, DetectsLesionsFromPresenceFlags) {
   ScenarioOptions scenario = counting_scenario();
   scenario.streaks.count = CountDistribution{CountDistribution::Kind::poisson, 0.8};  // P(none) = 0.45
@@ -157,16 +159,19 @@ TEST(PresenceMil, DetectsLesionsFromPresenceFlags) {
     present.push_back(problem.test[i].truth.count > 0);
   }
   const double auc = roc_auc(scores, present);
-  const double recall = lesion_recall(predictions, problem.test);
-  std::printf("presence-mil: AUC %.3f, lesion recall %.3f\n", auc, recall);
+  const SegmentationScores map = segmentation_scores(predictions, problem.test);
+  std::printf("presence-mil: AUC %.3f, matched recall %.3f, precision %.3f, area ratio %.2f\n", auc, map.recall,
+              map.precision, map.area_ratio);
   EXPECT_GE(auc, 0.85);
-  EXPECT_GE(recall, 0.3);
+  EXPECT_GE(map.recall, 0.75);
+  EXPECT_GE(map.precision, 0.8);
 }
 
 // points from clicks. Clicks say where lesions are, not how far they reach, so the map is the
-// product: lesion-wise recall >= 0.7 and pooled Dice >= 0.4 against the true masks, where the
-// trivial baselines (marking nothing, or the same number of voxels at random, about 2 % of the
-// image) score 0 and about 0.02 (common practice, no source). Counts read from the map's
+// product: lesions matched one to one at IoU >= 0.1 with recall >= 0.8 and precision >= 0.9, and
+// pooled Dice >= 0.5 against the true masks (measured 0.94, 1.00 and 0.65), where the trivial
+// baselines (marking nothing, or the same number of voxels at random, about 2 % of the image)
+// score 0 and about 0.02 (common practice, no source). Counts read from the map's
 // components must at least not lose to predicting the training clicks' mean count; at 48 x 48
 // neighbouring lesions' blobs merge and jittered clicks that miss their lesion grow blobs of their
 // own, so counting is left to count-map (docs/learning.md).
@@ -182,14 +187,15 @@ TEST(Points, LocalisesLesionsFromClicks) {
   }
   const double model_mae = mean_absolute_error(predicted, truth);
   const double baseline_mae = mean_absolute_error(std::vector<double>(truth.size(), mean_of(clicks)), truth);
-  const double recall = lesion_recall(predictions, problem.test);
-  const double dice = pooled_dice(predictions, problem.test);
+  const SegmentationScores map = segmentation_scores(predictions, problem.test);
   std::printf(
-      "points: lesion recall %.3f, pooled Dice %.3f; count MAE %.3f (mean %.2f, true mean %.2f), "
-      "mean-prediction MAE %.3f\n",
-      recall, dice, model_mae, mean_of(predicted), mean_of(truth), baseline_mae);
-  EXPECT_GE(recall, 0.7);
-  EXPECT_GE(dice, 0.4);
+      "points: matched recall %.3f, precision %.3f, pooled Dice %.3f, area ratio %.2f; count MAE %.3f (mean %.2f, "
+      "true mean %.2f), mean-prediction MAE %.3f\n",
+      map.recall, map.precision, map.dice, map.area_ratio, model_mae, mean_of(predicted), mean_of(truth),
+      baseline_mae);
+  EXPECT_GE(map.recall, 0.8);
+  EXPECT_GE(map.precision, 0.9);
+  EXPECT_GE(map.dice, 0.5);
   EXPECT_LE(model_mae, baseline_mae);
 }
 
