@@ -150,7 +150,7 @@ void add_validate_command(CLI::App& app) {
   CLI::App* command = app.add_subcommand(
       "validate", "Check that the testbed reproduces eight settled facts of weak- and noisy-label learning "
                   "(docs/validate.md); exit status 3 when one fails.");
-  command->add_flag("--quick", arguments->quick, "48x48 images and 3 repeats (minutes) instead of the full run");
+  command->add_flag("--quick", arguments->quick, "48x48 images and 5 repeats (minutes) instead of the full run");
   command->add_option("--phenomenon", arguments->phenomena, "Run only these phenomena (1 to 8); repeat the option");
   command->add_option("--threads", arguments->threads, "Torch threads per cell")->capture_default_str();
   command->add_option("--seed", arguments->seed, "Seed of every phantom and rater")->capture_default_str();

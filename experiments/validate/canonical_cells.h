@@ -19,7 +19,7 @@ namespace frugal::validation {
 // What one size runs: images, repeats and cohorts.
 struct ValidationSizes {
   int side = 48;             // 2D images of side x side voxels
-  int repeats = 3;
+  int repeats = 5;
   int pool = 300;            // training subjects per repeat (labels are bought from them)
   int test = 48;             // held-out subjects per repeat
   int small_labels = 24;     // "small n": labelled images

@@ -15,8 +15,8 @@
 
 namespace frugal::validation {
 
-// quick: 48² images, 3 repeats, small cohorts (minutes; the test suite runs it). full: 64²
-// images, 5 repeats, the cohorts docs/validate.md states.
+// quick: 48² images, 5 repeats, small cohorts (minutes; the test suite runs it). full: 64²
+// images, 8 repeats, the cohorts docs/validate.md states.
 enum class ValidationSize { quick, full };
 std::string to_string(ValidationSize size);
 ValidationSize validation_size_from_string(const std::string& name);  // throws UserError listing the names
