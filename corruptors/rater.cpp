@@ -177,6 +177,23 @@ std::string RaterOptions::validate() const {
   return first.take();
 }
 
+RaterOptions careful_rater() {
+  RaterOptions rater;
+  rater.name = "careful";
+  rater.detection.size50_mm = 1.0;
+  rater.detection.contrast50 = 0.05;
+  rater.detection.lapse = 0.0;
+  rater.detection.dot_confusion = 0.0;
+  rater.detection.line_confusion = 0.0;
+  rater.counting.slip_probability = 0.0;
+  rater.grading.perception_sd = 0.0;
+  rater.outline.displacement_sd_mm = 0.0;
+  rater.outline.protrusion_rate = 0.0;
+  rater.outline.hole_rate = 0.0;
+  rater.outline.spurious_rate = 0.0;
+  return rater;
+}
+
 RaterOptions panel_member(const RaterOptions& panel, std::uint64_t seed, int rater) {
   FRUGAL_CHECK(rater >= 0);
   // Its own stream, keyed by the seed and the rater index alone, so the same rater reads every

@@ -115,4 +115,8 @@ struct RaterOptions {
 // The parameters of rater r of a panel, drawn from (seed, r) alone.
 RaterOptions panel_member(const RaterOptions& panel, std::uint64_t seed, int rater);
 
+// A careful rater, for checks of the learners: notices nearly every lesion, never slips or takes a
+// look-alike for a lesion, outlines exactly, grades with the default bins and no perception error.
+RaterOptions careful_rater();
+
 }  // namespace frugal

@@ -123,20 +123,7 @@ LabelImage estimate_field(const FloatImage& image, const FieldOptions& field) {
     const double value = image.data()[i];
     mask.data()[i] = value >= field.low && value <= field.high ? 1 : 0;
   }
-  if (field.drop_border_connected) {
-    const auto components = measure::label_components(mask);
-    const Shape shape = image.shape();
-    std::vector<bool> touches(static_cast<std::size_t>(components.count) + 1, false);
-    for (int z = 0; z < shape.z; ++z)
-      for (int y = 0; y < shape.y; ++y)
-        for (int x = 0; x < shape.x; ++x) {
-          const bool border =
-              x == 0 || y == 0 || x == shape.x - 1 || y == shape.y - 1 || (shape.z > 1 && (z == 0 || z == shape.z - 1));
-          if (border) touches[static_cast<std::size_t>(components.labels.at(x, y, z))] = true;
-        }
-    for (std::size_t i = 0; i < mask.size(); ++i)
-      if (touches[static_cast<std::size_t>(components.labels.data()[i])]) mask.data()[i] = 0;
-  }
+  if (field.drop_border_connected) measure::clear_border_components(mask);
   if (std::none_of(mask.voxels().begin(), mask.voxels().end(), [](std::uint8_t v) { return v != 0; }))
     std::fill(mask.voxels().begin(), mask.voxels().end(), std::uint8_t{1});
   return mask;

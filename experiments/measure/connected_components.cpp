@@ -4,6 +4,7 @@
 #include <cstdlib>
 #include <numeric>
 #include <sstream>
+#include <vector>
 
 #include <opencv2/imgproc.hpp>
 
@@ -138,6 +139,21 @@ ComponentLabels label_components(const Image<std::uint8_t>& mask, const Connecti
     label_3d(mask, options.resolved(dims), result);
   }
   return result;
+}
+
+void clear_border_components(Image<std::uint8_t>& mask, const ConnectivityOptions& options) {
+  const ComponentLabels components = label_components(mask, options);
+  const Shape& shape = mask.shape();
+  std::vector<bool> touches(static_cast<std::size_t>(components.count) + 1, false);
+  for (int z = 0; z < shape.z; ++z)
+    for (int y = 0; y < shape.y; ++y)
+      for (int x = 0; x < shape.x; ++x) {
+        const bool border =
+            x == 0 || y == 0 || x == shape.x - 1 || y == shape.y - 1 || (shape.z > 1 && (z == 0 || z == shape.z - 1));
+        if (border) touches[static_cast<std::size_t>(components.labels.at(x, y, z))] = true;
+      }
+  for (std::size_t v = 0; v < mask.size(); ++v)
+    if (touches[static_cast<std::size_t>(components.labels.data()[v])]) mask.data()[v] = 0;
 }
 
 }  // namespace frugal::measure

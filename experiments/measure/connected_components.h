@@ -27,4 +27,8 @@ struct ComponentLabels {
 
 ComponentLabels label_components(const Image<std::uint8_t>& mask, const ConnectivityOptions& options = {});
 
+// Sets to 0 every component of `mask` that touches the grid's border (the first or last row or
+// column, and in 3D the first or last slice): air around a body, say, as against the lungs.
+void clear_border_components(Image<std::uint8_t>& mask, const ConnectivityOptions& options = {});
+
 }  // namespace frugal::measure

@@ -46,23 +46,6 @@ ScenarioOptions voids_scenario(int side) {
   return scenario;
 }
 
-RaterOptions careful_rater() {
-  RaterOptions rater;
-  rater.name = "careful";
-  rater.detection.size50_mm = 1.0;
-  rater.detection.contrast50 = 0.05;
-  rater.detection.lapse = 0.0;
-  rater.detection.dot_confusion = 0.0;
-  rater.detection.line_confusion = 0.0;
-  rater.counting.slip_probability = 0.0;
-  rater.grading.perception_sd = 0.0;
-  rater.outline.displacement_sd_mm = 0.0;
-  rater.outline.protrusion_rate = 0.0;
-  rater.outline.hole_rate = 0.0;
-  rater.outline.spurious_rate = 0.0;
-  return rater;
-}
-
 study::LabelPlan label_plan(const std::string& name, LabelKind kind, const RaterOptions& rater) {
   study::LabelPlan plan;
   plan.name = name;

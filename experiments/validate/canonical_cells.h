@@ -31,13 +31,11 @@ struct ValidationSizes {
 ValidationSizes sizes_for(ValidationSize size);
 
 // The 2D scenarios: a brain-like field with lesions placed around the ventricles and tube-shaped
-// look-alike vessels; a lung-like field in HU.
+// look-alike vessels; a lung-like field in HU. The phenomena's raters start from corruptors'
+// careful_rater() and add one flaw each.
 ScenarioOptions streaks_scenario(int side);
 ScenarioOptions voids_scenario(int side);
 
-// Raters. Careful: sees nearly every lesion, never counts a look-alike, outlines exactly, grades
-// with the default bins and no perception error. The others start from it and add one flaw.
-RaterOptions careful_rater();
 
 // Everything a phenomenon's cells share within one run.
 struct CellContext {

@@ -25,25 +25,6 @@ inline ScenarioOptions small_scenario(Family family, int side) {
   return scenario;
 }
 
-// A careful rater: notices nearly every lesion, never slips or confuses look-alikes, outlines
-// exactly, grades with the default bins and no perception noise.
-inline RaterOptions careful_rater() {
-  RaterOptions rater;
-  rater.name = "careful";
-  rater.detection.size50_mm = 1.0;
-  rater.detection.contrast50 = 0.05;
-  rater.detection.lapse = 0.0;
-  rater.detection.dot_confusion = 0.0;
-  rater.detection.line_confusion = 0.0;
-  rater.counting.slip_probability = 0.0;
-  rater.grading.perception_sd = 0.0;
-  rater.outline.displacement_sd_mm = 0.0;
-  rater.outline.protrusion_rate = 0.0;
-  rater.outline.hole_rate = 0.0;
-  rater.outline.spurious_rate = 0.0;
-  return rater;
-}
-
 inline std::vector<Subject> draw_subjects(const ScenarioOptions& scenario, std::uint64_t seed, int first, int count) {
   std::vector<Subject> subjects;
   for (int i = first; i < first + count; ++i) subjects.push_back(generate_subject(scenario, seed, i));

@@ -22,7 +22,7 @@ namespace frugal::learn {
 namespace {
 
 using testing::buy_labels;
-using testing::careful_rater;
+using frugal::careful_rater;
 using testing::draw_subjects;
 using testing::images_of;
 using testing::small_scenario;

@@ -51,6 +51,36 @@ TEST(ConnectedComponents, ThreeDimensionalCounts) {
   }
 }
 
+// Air on the border, a blob well inside (a lung) and a voxel joined to the air only diagonally:
+// full connectivity clears that voxel with the air, 4-connectivity keeps it (hand-built; common
+// practice, no source).
+TEST(ConnectedComponents, ClearsComponentsTouchingTheBorder) {
+  Image<std::uint8_t> mask = blank(7, 7);
+  mask.at(0, 3) = mask.at(0, 4) = 1;  // on the border
+  mask.at(3, 3) = mask.at(4, 3) = 1;  // inside
+  mask.at(1, 2) = 1;                  // diagonal to (0, 3) only
+  Image<std::uint8_t> full = mask;
+  clear_border_components(full);
+  std::size_t left = 0;
+  for (std::uint8_t v : full.voxels()) left += v;
+  EXPECT_EQ(left, 2U);
+  EXPECT_EQ(full.at(3, 3), 1);
+  EXPECT_EQ(full.at(1, 2), 0);
+  ConnectivityOptions four;
+  four.connectivity = 4;
+  clear_border_components(mask, four);
+  EXPECT_EQ(mask.at(1, 2), 1);
+  EXPECT_EQ(mask.at(4, 3), 1);
+  EXPECT_EQ(mask.at(0, 3), 0);
+  // In 3D the first and last slices are border too.
+  Image<std::uint8_t> volume = blank(5, 5, 5);
+  volume.at(2, 2, 0) = volume.at(2, 2, 1) = 1;
+  volume.at(2, 2, 3) = 1;
+  clear_border_components(volume);
+  EXPECT_EQ(volume.at(2, 2, 1), 0);
+  EXPECT_EQ(volume.at(2, 2, 3), 1);
+}
+
 TEST(ConnectedComponents, RejectsConnectivityOfTheOtherDimension) {
   ConnectivityOptions options;
   options.connectivity = 26;
