@@ -51,7 +51,6 @@ std::string format_table(const validation::ValidationReport& report) {
     out << line;
   }
   out << "\n";
-  std::string last_claim_basis;
   for (const validation::CheckResult& check : report.checks) {
     out << check.id << "  " << check.claim << "\n";
     out << "    effect: " << check.effect << "\n";
@@ -117,10 +116,12 @@ void validate(const ValidateArguments& arguments) {
               "the exact truth.\nChecks of the testbed only; they do not validate any method for clinical use.\n\n",
               validation::to_string(options.size).c_str());
   std::fflush(stdout);
-  ProgressBar bar("validate", 8);
+  ProgressBar bar("validate", options.phenomena.empty() ? 8 : static_cast<long long>(options.phenomena.size()));
+  int started = 0, last_phenomenon = 0;
   const validation::ValidationReport report = validation::run_validation(options, [&](const validation::ValidationProgress& p) {
-    bar.update(p.phenomenon - 1, "phenomenon " + std::to_string(p.phenomenon) + ", repeat " + std::to_string(p.repeat) +
-                                     "/" + std::to_string(p.repeats) + ": " + p.what);
+    if (p.phenomenon != last_phenomenon) ++started, last_phenomenon = p.phenomenon;
+    bar.update(started - 1, "phenomenon " + std::to_string(p.phenomenon) + ", repeat " + std::to_string(p.repeat) + "/" +
+                                std::to_string(p.repeats) + ": " + p.what);
   });
   bar.finish();
   std::fputs(format_table(report).c_str(), stdout);
