@@ -58,7 +58,7 @@ std::string format_table(const validation::ValidationReport& report) {
     for (double effect : check.effects) out << " " << signed_number(effect, 3);
     out << "\n";
     // Phenomena with two checks share their numbers; print them once, under the last.
-    const bool last_of_phenomenon = &check == &report.checks.back() || (&check + 1)->parts != check.parts;
+    const bool last_of_phenomenon = &check == &report.checks.back() || (&check + 1)->phenomenon != check.phenomenon;
     if (last_of_phenomenon && !check.parts.empty()) {
       out << "    means:";
       for (std::size_t p = 0; p < check.parts.size(); ++p) {
@@ -82,7 +82,8 @@ nlohmann::json to_json(const validation::ValidationReport& report) {
     for (double effect : check.effects) effects.push_back(number(effect));
     nlohmann::json parts = nlohmann::json::object();
     for (const auto& [name, value] : check.parts) parts[name] = number(value);
-    checks.push_back({{"id", check.id},
+    checks.push_back({{"phenomenon", check.phenomenon},
+                      {"id", check.id},
                       {"claim", check.claim},
                       {"effect", check.effect},
                       {"basis", check.basis},

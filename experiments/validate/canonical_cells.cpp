@@ -25,11 +25,20 @@ ValidationSizes sizes_for(ValidationSize size) {
   return sizes;
 }
 
-ScenarioOptions streaks_scenario(int side) {
-  ScenarioOptions scenario = default_scenario(Family::streaks);
-  scenario.name = "validate-streaks";
+namespace {
+
+ScenarioOptions square_2d(Family family, int side, const std::string& name) {
+  ScenarioOptions scenario = default_scenario(family);
+  scenario.name = name;
   scenario.geometry.dims = 2;
   scenario.geometry.size_2d = {side, side};
+  return scenario;
+}
+
+}  // namespace
+
+ScenarioOptions streaks_scenario(int side) {
+  ScenarioOptions scenario = square_2d(Family::streaks, side, "validate-streaks");
   // A crop of an adult-sized head at 1 mm around the ventricles, where the lesions gather.
   scenario.geometry.anatomy_scale = AnatomyScale::physical;
   scenario.streaks.placement.density = LesionDensity::periventricular;
@@ -38,13 +47,7 @@ ScenarioOptions streaks_scenario(int side) {
   return scenario;
 }
 
-ScenarioOptions voids_scenario(int side) {
-  ScenarioOptions scenario = default_scenario(Family::voids);
-  scenario.name = "validate-voids";
-  scenario.geometry.dims = 2;
-  scenario.geometry.size_2d = {side, side};
-  return scenario;
-}
+ScenarioOptions voids_scenario(int side) { return square_2d(Family::voids, side, "validate-voids"); }
 
 study::LabelPlan label_plan(const std::string& name, LabelKind kind, const RaterOptions& rater) {
   study::LabelPlan plan;

@@ -1,6 +1,8 @@
 #include "experiments/validate/phenomena.h"
 
 #include <cmath>
+#include <functional>
+#include <string>
 
 #include "experiments/validate/pattern_check.h"
 
@@ -9,6 +11,24 @@ namespace frugal::validation {
 namespace {
 
 using learn::Strategy;
+
+// Two arms (a comparison and the method that should beat it) at small and large n: the small-n
+// gain, and how much larger it is than the large-n gain. Errors, so gain = comparison - method.
+RepeatOutcome gain_and_narrowing(const std::string& comparison, const std::string& method,
+                                 const std::function<double(bool method_arm, int labels)>& error,
+                                 const ValidationSizes& sizes) {
+  const double comparison_small = error(false, sizes.small_labels);
+  const double method_small = error(true, sizes.small_labels);
+  const double comparison_large = error(false, sizes.large_labels);
+  const double method_large = error(true, sizes.large_labels);
+  const double gain_small = comparison_small - method_small;
+  const double gain_large = comparison_large - method_large;
+  return {{gain_small, gain_small - gain_large},
+          {{method + ", small n", method_small},
+           {comparison + ", small n", comparison_small},
+           {method + ", large n", method_large},
+           {comparison + ", large n", comparison_large}}};
+}
 
 // 1. Unbiased noisy outlines: the noise is averaged out, so the model beats its own labels.
 RepeatOutcome noisy_outlines(const CellContext& context, int repeat) {
@@ -44,21 +64,12 @@ RepeatOutcome grade_bounds(const CellContext& context, int repeat) {
   rater.grading = GradingOptions{};  // the default bins and perception error
   const study::LabelPlan plan = label_plan("grades", LabelKind::grade, rater);
   const ScenarioOptions scenario = voids_scenario(context.sizes.side);
-  const auto mae = [&](Strategy strategy, int labels) {
+  const auto mae = [&](bool bounds, int labels) {
+    const Strategy strategy = bounds ? Strategy::grade_bounds : Strategy::scalar;
     return metric(run(context, make_cell(context, scenario, plan, strategy, labels, repeat)), "test",
                   "affected_fraction", "mae");
   };
-  const double bounds_small = mae(Strategy::grade_bounds, context.sizes.small_labels);
-  const double scalar_small = mae(Strategy::scalar, context.sizes.small_labels);
-  const double bounds_large = mae(Strategy::grade_bounds, context.sizes.large_labels);
-  const double scalar_large = mae(Strategy::scalar, context.sizes.large_labels);
-  const double gap_small = scalar_small - bounds_small;
-  const double gap_large = scalar_large - bounds_large;
-  return {{gap_small, gap_small - gap_large},
-          {{"grade-bounds MAE, small n", bounds_small},
-           {"scalar MAE, small n", scalar_small},
-           {"grade-bounds MAE, large n", bounds_large},
-           {"scalar MAE, large n", scalar_large}}};
+  return gain_and_narrowing("scalar MAE", "grade-bounds MAE", mae, context.sizes);
 }
 
 // 4. Counting through a density map with global sum pooling puts the mass on the objects counted.
@@ -82,22 +93,12 @@ RepeatOutcome count_map_mass(const CellContext& context, int repeat) {
 RepeatOutcome consistency(const CellContext& context, int repeat) {
   const study::LabelPlan plan = label_plan("counts", LabelKind::count, careful_rater());
   const ScenarioOptions scenario = streaks_scenario(context.sizes.side);
-  const auto mae = [&](double weight, int labels) {
+  const auto mae = [&](bool with_consistency, int labels) {
     study::CellSpec spec = make_cell(context, scenario, plan, Strategy::count_map, labels, repeat);
-    spec.train.consistency_weight = weight;
+    spec.train.consistency_weight = with_consistency ? 1.0 : 0.0;
     return metric(run(context, spec), "test", "count", "mae");
   };
-  const double plain_small = mae(0.0, context.sizes.small_labels);
-  const double with_small = mae(1.0, context.sizes.small_labels);
-  const double plain_large = mae(0.0, context.sizes.large_labels);
-  const double with_large = mae(1.0, context.sizes.large_labels);
-  const double gain_small = plain_small - with_small;
-  const double gain_large = plain_large - with_large;
-  return {{gain_small, gain_small - gain_large},
-          {{"count MAE, small n", plain_small},
-           {"with consistency, small n", with_small},
-           {"count MAE, large n", plain_large},
-           {"with consistency, large n", with_large}}};
+  return gain_and_narrowing("count MAE", "count MAE with consistency", mae, context.sizes);
 }
 
 // 6. Systematically dilated outlines: a model learns the rater's bias with the lesions.

@@ -56,6 +56,7 @@ ValidationReport run_validation(const ValidationOptions& options,
     std::vector<CheckResult> checks;
     for (const CheckDefinition& definition : phenomenon.checks) {
       CheckResult check;
+      check.phenomenon = phenomenon.number;
       check.id = definition.id;
       check.claim = definition.claim;
       check.effect = definition.effect;

@@ -33,6 +33,7 @@ struct ValidationOptions {
 // One claim, with the effect that measures it: it passes when the effect's mean over repeats
 // reaches the threshold and its interval lies wholly above zero (the sign is settled).
 struct CheckResult {
+  int phenomenon = 0;  // 1..8; a phenomenon may make two checks, which share `parts`
   std::string id;      // "1", "3a", ...
   std::string claim;   // what the testbed must reproduce
   std::string effect;  // how it is measured, with its unit
