@@ -53,6 +53,10 @@ struct SubjectTruth {
   double densitometry = -1.0;      // voids: fraction of field voxels strictly below threshold_hu
   double confounder = 1.0;         // the nuisance factor applied (1 or 0 HU when none)
   double field_volume_mm3 = 0.0;
+  // voids: the vessel and airway tree inside the field, by partial-volume share (voids.tree; 0
+  // without one): all of it (vessels, airway walls and lumen) and its air-filled lumen alone.
+  double tree_volume_mm3 = 0.0;
+  double tree_air_volume_mm3 = 0.0;
   int objects_dropped = 0;         // drawn objects that could not be placed apart
   std::vector<ObjectRecord> objects;
 };

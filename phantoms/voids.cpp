@@ -263,6 +263,19 @@ FloatImage render_signal(const Anatomy& a, const VoidsOptions& v, VoidPattern pa
   return signal;
 }
 
+// The tree's volume in the field of the scan it was drawn for, by the same partial-volume shares
+// the image is drawn with.
+void record_tree_volume(const TreeRaster& tree, SubjectTruth& truth) {
+  double tissue = 0.0, air = 0.0;
+  for (std::size_t n = 0; n < tree.tissue.size(); ++n) {
+    air += tree.air.data()[n];
+    tissue += std::max(tree.tissue.data()[n], tree.air.data()[n]);
+  }
+  const double voxel_volume = tree.tissue.geometry().voxel_volume_mm3();
+  truth.tree_volume_mm3 = tissue * voxel_volume;
+  truth.tree_air_volume_mm3 = air * voxel_volume;
+}
+
 }  // namespace
 
 double densitometry(const FloatImage& image, const LabelImage& labels, double threshold_hu) {
@@ -320,6 +333,7 @@ Subject generate_voids(const ScenarioOptions& scenario, std::uint64_t seed, int 
       rest.instances = region;
       rest.signal = render_signal(anatomy, v, pattern, rest.field, rest.instances, anatomy.texture, pose,
                                   anatomy.has_tree ? &anatomy.tree_raster : nullptr);
+      if (anatomy.has_tree) record_tree_volume(anatomy.tree_raster, rest.truth);
     } else {
       rest.field = resample_nearest(anatomy.field, pose);
       rest.instances = resample_nearest(region, pose);
@@ -331,6 +345,7 @@ Subject generate_voids(const ScenarioOptions& scenario, std::uint64_t seed, int 
         for (std::size_t n = 0; n < rest.instances.size(); ++n)
           if (moved.where.data()[n] != kNoTree) rest.instances.data()[n] = 0;
         rest.signal = render_signal(anatomy, v, pattern, rest.field, rest.instances, texture, pose, &moved);
+        record_tree_volume(moved, rest.truth);
       } else {
         rest.signal = render_signal(anatomy, v, pattern, rest.field, rest.instances, texture, pose, nullptr);
       }

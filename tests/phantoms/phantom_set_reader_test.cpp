@@ -72,7 +72,7 @@ TEST(PhantomSetReader, BadInputNamesTheFileAndLine) {
   }
   const std::string folder = write_set("broken", 0);
   std::ofstream(folder + "/truth.csv", std::ios::app)
-      << "10,0,streaks,none,1,x,1,0,1,0.1,NA,1,10,0,a.nii.gz,b.nii.gz\n";
+      << "10,0,streaks,none,1,x,1,0,1,0.1,NA,1,10,0,NA,NA,a.nii.gz,b.nii.gz\n";
   try {
     read_phantom_set(folder);
     FAIL() << "a non-numeric count was accepted";

@@ -391,6 +391,67 @@ class HounsfieldAnchorTest(unittest.TestCase):
                 self.assertAlmostEqual(float(row["densitometry"]), expected, delta=1e-8)
 
 
+class TreeVolumeTest(unittest.TestCase):
+    # The anchors scenario with a vessel and airway tree, drawn twice with vessels at two levels.
+    # Each field voxel is mixed by partial volume, air x lumen share + vessel_hu x (tissue - lumen)
+    # share + base x the rest (docs/scenarios.md, "The vessel and airway tree"), with no blur,
+    # noise or texture: the two images' difference gives each voxel's tissue-minus-lumen share, and
+    # then one image gives its lumen share. Their sums times the voxel volume must be the truth's
+    # tree_volume_mm3 and tree_air_volume_mm3 (linear mixing; common practice, no source).
+    AIR_HU, PARENCHYMA_HU, REGION_HU = -1000.0, -850.0, -950.0
+    VESSEL_HU = (40.0, 240.0)
+
+    def check_tree(self, key, *extra):
+        tree = [(r"^voids:\n", "voids:\n  tree: {generations: 4, trunk_length_mm: 20, vessel_radius_mm: 2, "
+                                "airway_radius_mm: 2.5, min_radius_mm: 0.4, vessel_hu: %g}\n" % level)
+                for level in self.VESSEL_HU]
+        folders = [phantom_set(f"{key}-{level:g}",
+                               edited_scenario("hounsfield-anchors", [edit], f"anchors-tree-{key}-{level:g}"), 2, *extra)
+                   for edit, level in zip(tree, self.VESSEL_HU)]
+        shape, spacing = geometry_of(folders[0])
+        rows = [subjects_of(folder) for folder in folders]
+        for first, second in zip(*rows):
+            with self.subTest(set=key, seed=SEED, subject=first["subject"]):
+                for column in ("tree_volume_mm3", "tree_air_volume_mm3"):
+                    self.assertEqual(first[column], second[column], "the tree does not depend on its HU")
+                _, low = load(folders[0], first["image"])
+                _, high = load(folders[1], second["image"])
+                _, labels = load(folders[0], first["labels"])
+                field = labels >= 1
+                low = low.astype(np.float64)[field]
+                high = high.astype(np.float64)[field]
+                base = np.where(labels[field] == 2, self.REGION_HU, self.PARENCHYMA_HU)
+                wall = (high - low) / (self.VESSEL_HU[1] - self.VESSEL_HU[0])  # tissue - lumen share
+                lumen = (low - self.VESSEL_HU[0] * wall - (1.0 - wall) * base) / (self.AIR_HU - base)
+                self.assertGreater(wall.min(), -1e-4)
+                self.assertGreater(lumen.min(), -1e-4)
+                self.assertLess((wall + lumen).max(), 1.0 + 1e-4)
+                volume = voxel_volume(spacing)
+                expected_tree = (wall + lumen).sum() * volume
+                expected_air = lumen.sum() * volume
+                self.assertGreater(expected_air, 0.0, "the set should hold airways")
+                self.assertGreater(expected_tree, expected_air, "the set should hold vessels or airway walls")
+                # float32 images: each voxel's value is good to about 1e-4 HU.
+                self.assertAlmostEqual(float(first["tree_volume_mm3"]), expected_tree,
+                                       delta=1e-5 * field.sum() * volume)
+                self.assertAlmostEqual(float(first["tree_air_volume_mm3"]), expected_air,
+                                       delta=1e-5 * field.sum() * volume)
+        # Without a tree both columns are 0; a streaks set has no lungs (NA).
+        plain = phantom_set("anchors-2d", scenario_path("hounsfield-anchors"), 2)
+        for row in subjects_of(plain):
+            self.assertEqual(float(row["tree_volume_mm3"]), 0.0)
+            self.assertEqual(float(row["tree_air_volume_mm3"]), 0.0)
+        streaks = phantom_set("streaks-2d", scenario_path("reference-streaks"), STREAKS_COUNT[2])
+        for row in subjects_of(streaks):
+            self.assertEqual((row["tree_volume_mm3"], row["tree_air_volume_mm3"]), ("NA", "NA"))
+
+    def test_2d(self):
+        self.check_tree("tree-2d")
+
+    def test_3d(self):
+        self.check_tree("tree-3d", "--dims", "3")
+
+
 # ----------------------------------------------------------------------------------------------
 # 5. Rician noise
 
