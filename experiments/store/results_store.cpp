@@ -15,6 +15,7 @@
 #include "experiments/store/results_store_internal.h"
 #include "frugal_version.h"
 #include "phantoms/image.h"
+#include "phantoms/regular_file.h"
 #include "phantoms/user_error.h"
 
 namespace frugal::store {
@@ -141,6 +142,9 @@ std::string short_hash(const std::string& hash) { return hash.size() > 12 ? hash
 class Connection {
  public:
   Connection(const std::string& path, bool read_only) : path_(path) {
+    // SQLite opens a device or a pipe and then fails with an I/O error (and creates PATH-journal
+    // beside it), which reads like a failing disk.
+    if (!read_only) require_writable_output(path, OutputKind::file, "a new file or an existing frugal results store");
     sqlite3* raw = nullptr;
     const int flags = read_only ? SQLITE_OPEN_READONLY : SQLITE_OPEN_READWRITE | SQLITE_OPEN_CREATE;
     const int code = sqlite3_open_v2(path.c_str(), &raw, flags, nullptr);

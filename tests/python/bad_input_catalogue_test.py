@@ -395,6 +395,11 @@ CASES = [
     Case("score_json_is_a_pipe", SCORE + ["--json", "{case}/s.json"],
          ["s.json", "a named pipe", "allowed: a new or regular file for the JSON report"], {"s.json": FIFO}),
     Case("score_json_dev_full", SCORE + ["--json", "/dev/full"], ["/dev/full", "a character device", "allowed:"]),
+    # SQLite would open a device or a pipe and fail with an I/O error that reads like a failing disk.
+    Case("run_out_dev_full", ["run", "{src}/studies/ageing-cohort.yaml", "--out", "/dev/full"],
+         ["/dev/full", "a character device", "allowed: a new file or an existing frugal results store"]),
+    Case("run_out_is_a_pipe", ["run", "{src}/studies/ageing-cohort.yaml", "--out", "{case}/r.db"],
+         ["r.db", "a named pipe", "allowed: a new file or an existing frugal results store"], {"r.db": FIFO}),
     # A folder of another kind is not replaced, even with --overwrite; the message names its kind.
     Case("phantoms_out_holds_labels", ["phantoms", SCENARIO, "--count", "2", "--out", "{case}/out", "--overwrite"],
          ["already holds a finished label set", "not a finished phantom set", "allowed: a new folder"],
