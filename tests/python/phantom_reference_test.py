@@ -405,13 +405,16 @@ class TreeVolumeTest(unittest.TestCase):
         tree = [(r"^voids:\n", "voids:\n  tree: {generations: 4, trunk_length_mm: 20, vessel_radius_mm: 2, "
                                 "airway_radius_mm: 2.5, min_radius_mm: 0.4, vessel_hu: %g}\n" % level)
                 for level in self.VESSEL_HU]
+        # A rescan draws the tree again in its own pose: its row holds that scan's tree.
         folders = [phantom_set(f"{key}-{level:g}",
-                               edited_scenario("hounsfield-anchors", [edit], f"anchors-tree-{key}-{level:g}"), 2, *extra)
+                               edited_scenario("hounsfield-anchors", [edit], f"anchors-tree-{key}-{level:g}"), 2,
+                               "--rescans", 1, *extra)
                    for edit, level in zip(tree, self.VESSEL_HU)]
-        shape, spacing = geometry_of(folders[0])
-        rows = [subjects_of(folder) for folder in folders]
+        _, spacing = geometry_of(folders[0])
+        rows = [read_table(os.path.join(folder, "truth.csv")) for folder in folders]
+        self.assertEqual(sorted({row["rescan"] for row in rows[0]}), ["0", "1"])
         for first, second in zip(*rows):
-            with self.subTest(set=key, seed=SEED, subject=first["subject"]):
+            with self.subTest(set=key, seed=SEED, subject=first["subject"], rescan=first["rescan"]):
                 for column in ("tree_volume_mm3", "tree_air_volume_mm3"):
                     self.assertEqual(first[column], second[column], "the tree does not depend on its HU")
                 _, low = load(folders[0], first["image"])
