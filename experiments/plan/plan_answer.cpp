@@ -320,7 +320,7 @@ std::string targets_text(const std::vector<Target>& targets) {
 std::string sentence_of(const PlanAnswer& answer) {
   const std::string goal = "To reach " + targets_text(answer.targets) + " on held-out phantoms";
   if (answer.cheapest < 0)
-    return goal + ", no plan the study measured is enough: see each plan's reason below.";
+    return goal + ", no plan the study measured is enough: see the reason given for each plan.";
   const ArmHours& best = answer.arms[static_cast<std::size_t>(answer.cheapest)];
   std::string text = goal + ", the cheapest plan is " + name_of(best);
   const int percent = static_cast<int>(std::round(100.0 * answer.options.confidence));
