@@ -36,7 +36,6 @@ ValidationSizes sizes_for(ValidationSize size);
 ScenarioOptions streaks_scenario(int side);
 ScenarioOptions voids_scenario(int side);
 
-
 // Everything a phenomenon's cells share within one run.
 struct CellContext {
   ValidationSizes sizes;
