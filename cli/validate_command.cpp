@@ -27,6 +27,7 @@ struct ValidateArguments {
   int threads = 2;
   std::uint64_t seed = 1;
   std::string json;
+  std::string store;
 };
 
 std::string signed_number(double value, int decimals) {
@@ -101,6 +102,7 @@ nlohmann::json to_json(const validation::ValidationReport& report) {
           {"confidence", report.options.confidence},
           {"repeats", report.repeats},
           {"seconds", report.seconds},
+          {"cells_resumed", report.cells_resumed},
           {"passed", report.passed()},
           {"checks", checks}};
 }
@@ -111,6 +113,7 @@ void validate(const ValidateArguments& arguments) {
   options.phenomena = arguments.phenomena;
   options.threads = arguments.threads;
   options.seed = arguments.seed;
+  options.store_path = arguments.store;
   if (const std::string problem = options.validate(); !problem.empty())
     throw UserError("--" + problem);  // every key is the option of the same name
   std::printf("frugal validate (%s): canonical studies on synthetic phantoms, effects on held-out subjects against "
@@ -131,6 +134,9 @@ void validate(const ValidateArguments& arguments) {
   std::printf("\n%d of %zu checks passed in %.0f s (%d repeats, seed %llu, %d threads).\n",
               static_cast<int>(report.checks.size()) - failed, report.checks.size(), report.seconds, report.repeats,
               static_cast<unsigned long long>(options.seed), options.threads);
+  if (!options.store_path.empty())
+    std::printf("Cells kept in %s (%d were there before this run; rerun the same command to resume).\n",
+                options.store_path.c_str(), report.cells_resumed);
   if (!arguments.json.empty()) {
     WholeFile file(arguments.json);
     file.write(to_json(report).dump(2) + "\n");
@@ -157,6 +163,9 @@ void add_validate_command(CLI::App& app) {
   command->add_option("--threads", arguments->threads, "Torch threads per cell")->capture_default_str();
   command->add_option("--seed", arguments->seed, "Seed of every phantom and rater")->capture_default_str();
   command->add_option("--json", arguments->json, "Also write the results as JSON to this file");
+  command->add_option("--store", arguments->store,
+                      "Keep every finished cell in this results store; a rerun with the same store (same size, seed "
+                      "and threads) resumes where a killed run stopped");
   command->callback([arguments] { validate(*arguments); });
 }
 

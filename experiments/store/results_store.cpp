@@ -539,7 +539,7 @@ ResultsStore ResultsStore::open_for_study(const std::string& path, const StudyRe
   if (impl->study.study_hash != study.study_hash)
     throw UserError(path + ": holds study '" + impl->study.name + "' (hash " + short_hash(impl->study.study_hash) +
                     "), not '" + study.name + "' (" + short_hash(study.study_hash) +
-                    "); use another --out file or the same study file");
+                    "); give another store file, or run what made this one");
   return ResultsStore(std::move(impl));
 }
 

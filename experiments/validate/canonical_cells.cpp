@@ -86,6 +86,8 @@ study::CellSpec make_cell(const CellContext& context, const ScenarioOptions& sce
 }
 
 study::CellResult run(const CellContext& context, const study::CellSpec& spec) {
+  const std::string key = study::cell_key(spec);
+  if (const study::CellResult* kept = context.archive->find(key)) return *kept;
   const auto progress = [&](const study::CellProgress& stage) {
     if (!context.progress) return;
     std::ostringstream text;
@@ -96,7 +98,7 @@ study::CellResult run(const CellContext& context, const study::CellSpec& spec) {
   };
   study::CellResult cell = study::run_cell(spec, context.cache, progress);
   if (cell.status != "done") throw UserError("validation cell " + spec.plan.name + " failed: " + cell.error);
-  return cell;
+  return context.archive->keep(std::move(cell));
 }
 
 double metric(const study::CellResult& cell, const std::string& test_set, const std::string& quantity,

@@ -11,6 +11,7 @@
 #include "experiments/scoring/scoring.h"
 #include "experiments/study/cell.h"
 #include "experiments/study/cell_runner.h"
+#include "experiments/validate/cell_archive.h"
 #include "experiments/validate/validation.h"
 #include "phantoms/scenario.h"
 
@@ -42,6 +43,7 @@ struct CellContext {
   std::uint64_t seed = 1;
   int threads = 2;
   study::CohortCache* cache = nullptr;
+  CellArchive* archive = nullptr;  // finished cells: a cell already there is not trained again
   std::function<void(const std::string&)> progress;  // the cell's stage, for the display
 };
 
@@ -51,7 +53,8 @@ study::LabelPlan label_plan(const std::string& name, LabelKind kind, const Rater
 // A cell buying `labels` images' labels (budget unit: labels) from the repeat's pool.
 study::CellSpec make_cell(const CellContext& context, const ScenarioOptions& scenario, const study::LabelPlan& plan,
                           learn::Strategy strategy, int labels, int repeat);
-// Runs it; a failed cell throws (a check that cannot be measured must not pass).
+// Runs it, or returns the archive's copy; a failed cell throws (a check that cannot be measured
+// must not pass).
 study::CellResult run(const CellContext& context, const study::CellSpec& spec);
 
 // One metric of a finished cell; NaN when the cell did not record it.

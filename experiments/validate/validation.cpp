@@ -6,6 +6,7 @@
 #include <sstream>
 
 #include "experiments/measure/mean_interval.h"
+#include "experiments/validate/cell_archive.h"
 #include "experiments/validate/phenomena.h"
 #include "phantoms/user_error.h"
 
@@ -49,6 +50,8 @@ ValidationReport run_validation(const ValidationOptions& options,
   const ValidationSizes sizes = sizes_for(options.size);
   report.repeats = sizes.repeats;
   study::CohortCache cache;
+  CellArchive archive = options.store_path.empty() ? CellArchive() : CellArchive(options.store_path, options);
+  report.cells_resumed = archive.resumed();
   for (const Phenomenon& phenomenon : canonical_phenomena()) {
     if (!options.phenomena.empty() &&
         std::find(options.phenomena.begin(), options.phenomena.end(), phenomenon.number) == options.phenomena.end())
@@ -71,6 +74,7 @@ ValidationReport run_validation(const ValidationOptions& options,
       context.seed = options.seed;
       context.threads = options.threads;
       context.cache = &cache;
+      context.archive = &archive;
       context.progress = [&](const std::string& what) {
         if (progress) progress({phenomenon.number, repeat + 1, sizes.repeats, what});
       };

@@ -27,6 +27,7 @@ struct ValidationOptions {
   int threads = 2;                  // torch threads per cell; never changes a check's definition
   double confidence = 0.90;         // of the intervals over repeats
   std::vector<int> phenomena;       // numbers to run (1..8; key "phenomenon"); empty = all
+  std::string store_path;           // results store that keeps every finished cell (resumable); empty = none
   std::string validate() const;     // empty, or "<key> = <value>: <what is allowed>"
 };
 
@@ -53,6 +54,7 @@ struct ValidationReport {
   int repeats = 0;
   std::vector<CheckResult> checks;
   double seconds = 0.0;
+  int cells_resumed = 0;  // finished cells read back from options.store_path instead of trained
   bool passed() const;
 };
 

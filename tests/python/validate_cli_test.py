@@ -6,7 +6,11 @@ interval's lower end > 0) is applied again here."""
 import json
 import math
 import os
+import signal
+import sqlite3
+import subprocess
 import sys
+import time
 import unittest
 
 from scipy import stats
@@ -69,6 +73,52 @@ class ValidateQuick(unittest.TestCase):
     def test_bad_phenomenon_number_is_refused(self):
         result = frugal_testing.run_frugal(FRUGAL, "validate", "--quick", "--phenomenon", "9", expect=2)
         self.assertIn("--phenomenon = 9: allowed 1 to 8", result.stderr)
+
+
+def done_cells(path):
+    """Finished cells in a results store, or 0 while the store does not exist yet."""
+    if not os.path.exists(path):
+        return 0
+    try:
+        with sqlite3.connect(f"file:{path}?mode=ro", uri=True) as connection:
+            return connection.execute("SELECT count(*) FROM cells WHERE status = 'done'").fetchone()[0]
+    except sqlite3.OperationalError:  # the schema is not written yet
+        return 0
+
+
+class ValidateStore(unittest.TestCase):
+    """--store keeps every finished cell: a run killed part-way resumes and prints what an
+    uninterrupted run prints (the quick run above, which has no store)."""
+
+    def test_a_killed_run_resumes_with_the_same_numbers(self):
+        _, uninterrupted = quick_run()
+        store = os.path.join(SCRATCH, "killed.db")
+        arguments = [FRUGAL, "validate", "--quick", "--phenomenon", "1", "--store", store]
+        running = subprocess.Popen(arguments, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
+        deadline = time.monotonic() + 600
+        while done_cells(store) < 2 and running.poll() is None and time.monotonic() < deadline:
+            time.sleep(0.2)
+        self.assertIsNone(running.poll(), "the run ended before it could be killed")
+        running.send_signal(signal.SIGKILL)
+        running.wait()
+        kept = done_cells(store)
+        self.assertGreaterEqual(kept, 2)
+        self.assertLess(kept, 5)  # phenomenon 1 has one cell per repeat, 5 repeats
+
+        report_path = os.path.join(SCRATCH, "resumed.json")
+        result = frugal_testing.run_frugal(FRUGAL, *arguments[1:], "--json", report_path)
+        with open(report_path) as file:
+            resumed = json.load(file)
+        self.assertEqual(resumed["cells_resumed"], kept)
+        self.assertEqual(done_cells(store), 5)
+        self.assertIn(f"Cells kept in {store} ({kept} were there before this run", result.stdout)
+        expected = next(check for check in uninterrupted["checks"] if check["id"] == "1")
+        self.assertEqual(resumed["checks"][0]["effects"], expected["effects"])
+        self.assertEqual(resumed["checks"][0]["parts"], expected["parts"])
+
+        # A store belongs to one size, seed and thread count: its cells would give other numbers.
+        refused = frugal_testing.run_frugal(FRUGAL, *arguments[1:], "--seed", "2", expect=2)
+        self.assertIn(f"{store}: holds study 'validate-quick-seed1-threads2'", refused.stderr)
 
 
 def configure(frugal, source, scratch):

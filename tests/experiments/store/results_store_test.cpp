@@ -378,7 +378,7 @@ TEST(ResultsStore, RefusesAStoreOfAnotherStudy) {
   expect_user_error(
       [&] { ResultsStore::open_for_study(path, study("young cohort", std::string(64, 'c'))); },
       {path + ": holds study 'ageing cohort' (hash aaaaaaaaaaaa...), not 'young cohort' (cccccccccccc...)",
-       "use another --out file or the same study file"});
+       "give another store file, or run what made this one"});
   // The refused open changed nothing.
   EXPECT_EQ(ResultsStore::open_existing(path).finished_keys(), std::set<std::string>{"a"});
 }
