@@ -63,6 +63,13 @@ study::RunSummary run_study_with_display(const study::StudyOptions& options, con
               options.name.c_str(), summary.cells_shard, summary.cells_study, summary.done + summary.failed,
               summary.skipped, store_path.c_str(), summary.failed, summary.seconds);
   for (const std::string& failure : summary.failures) std::printf("  failed: %s\n", failure.c_str());
+  if (!summary.epoch_capped.empty()) {
+    // A short training is easily mistaken for a poor plan: say so, with the first such cell.
+    std::printf("  note: train.epochs (%d) capped training_images (%d) in %zu cell%s, which trained on fewer images "
+                "than asked (first: %s); raise train.epochs to lift the cap\n",
+                options.train.epochs, options.training_images, summary.epoch_capped.size(),
+                summary.epoch_capped.size() == 1 ? "" : "s", summary.epoch_capped.front().c_str());
+  }
   std::fflush(stdout);  // before any error message on stderr
   return summary;
 }

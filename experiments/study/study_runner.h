@@ -47,6 +47,9 @@ struct RunSummary {
   int done = 0;
   int failed = 0;
   std::vector<std::string> failures;  // "cell: message"
+  // Cells run this time whose training_images / labels exceeded train.epochs, so they trained
+  // fewer images than the study asks for: "cell: N epochs of the M asked".
+  std::vector<std::string> epoch_capped;
   double seconds = 0.0;
 };
 

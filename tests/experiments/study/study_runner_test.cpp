@@ -356,6 +356,37 @@ TEST(StudyRunner, AFailingCellIsRecordedAndTheRunGoesOn) {
   EXPECT_EQ(again.failed, summary.failed);
 }
 
+// training_images / labels above train.epochs is clamped (cell_runner); the run names every cell
+// the clamp shortened, and only those. With 16 images and train.epochs 2: outlines at 4 images
+// (4 labels) ask 4 epochs and mix at 4 images (2 outlines + 2 images x 2 counts = 6 labels) asks
+// round(16 / 6) = 3; counts at 4 images (8 labels, two raters each) ask 2, and 8 images ask at
+// most 2 in every plan.
+TEST(StudyRunner, CellsWhoseEpochsAreCappedAreNamed) {
+  const fs::path folder = scratch("epoch_capped");
+  StudyOptions study = read_study_file(write_study(folder, tiny_study_text()).string());
+  study.training_images = 16;
+  RunOptions options;
+  options.store_path = (folder / "capped.db").string();
+  const RunSummary capped = run_study(study, options);
+  ASSERT_EQ(capped.failed, 0);
+  EXPECT_EQ(capped.epoch_capped, (std::vector<std::string>{
+                                     "outlines / mask / 4 labels / repeat 1: 2 epochs of the 4 asked",
+                                     "mix / mixed / 4 labels / repeat 1: 2 epochs of the 3 asked",
+                                     "outlines / mask / 4 labels / repeat 2: 2 epochs of the 4 asked",
+                                     "mix / mixed / 4 labels / repeat 2: 2 epochs of the 3 asked"}));
+  // And the cells did train the capped number of epochs.
+  for (const store::CellRecord& cell : store::ResultsStore::open_existing(options.store_path).cells())
+    if (cell.strategy != "line-filter") {
+      SCOPED_TRACE(cell.plan + " " + std::to_string(cell.budget));
+      EXPECT_EQ(static_cast<int>(cell.training_curve.size()),
+                std::clamp(static_cast<int>(std::lround(16.0 / cell.labels_bought)), 1, 2));
+    }
+
+  study.training_images = 8;  // at most 2 epochs asked of any cell: the cap never binds
+  options.store_path = (folder / "uncapped.db").string();
+  EXPECT_TRUE(run_study(study, options).epoch_capped.empty());
+}
+
 // Every example study in the repository reads and runs end to end at a tiny size, so the
 // examples cannot rot.
 TEST(StudyRunner, EveryExampleStudyRunsAtATinySize) {
