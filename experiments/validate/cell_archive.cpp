@@ -4,8 +4,8 @@
 #include <utility>
 
 #include "experiments/study/cell.h"
-#include "phantoms/user_error.h"
 #include "frugal_version.h"
+#include "phantoms/user_error.h"
 
 namespace frugal::validation {
 
