@@ -400,6 +400,7 @@ TEST(StudyYamlBundledStudies, AgeingCohortReadsAsWritten) {
   EXPECT_EQ(study.training_images, 2200);
   EXPECT_EQ(study.train.epochs, 300);
   EXPECT_EQ(study.train.patience, 0);
+  EXPECT_EQ(study.train.validation_fraction, 0.0);
   EXPECT_EQ(study.quantities, (std::vector<std::string>{"count"}));
   // Relative paths are taken from the study's folder (study_yaml.h).
   EXPECT_EQ(study.scenario_file, kSource + "/scenarios/ageing-cohort-streaks-small.yaml");
