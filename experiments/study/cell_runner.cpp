@@ -348,6 +348,11 @@ CellResult cell_record(const CellSpec& spec, const std::string& status) {
   return result;
 }
 
+int epochs_asked(const CellSpec& spec, int labels) {
+  if (spec.training_images <= 0 || labels <= 0 || learn::is_classical(spec.train.strategy)) return 0;
+  return static_cast<int>(std::lround(static_cast<double>(spec.training_images) / labels));
+}
+
 CellResult run_cell(const CellSpec& spec, CohortCache* shared_cache,
                     const std::function<void(const CellProgress&)>& progress) {
   const auto report = [&](const std::string& stage, int epoch = 0, int epochs = 0) {
@@ -452,10 +457,8 @@ CellResult run_cell(const CellSpec& spec, CohortCache* shared_cache,
   for (int index : unlabelled) training.add_unlabelled(cache.subject(pool, index, 0).image);
   learn::TrainOptions options = spec.train;
   options.threads = spec.threads;
-  if (spec.training_images > 0 && !classical) {
-    const auto per_epoch = static_cast<double>(training.size());
-    options.epochs = std::clamp(static_cast<int>(std::lround(spec.training_images / per_epoch)), 1, spec.train.epochs);
-  }
+  if (const int asked = epochs_asked(spec, static_cast<int>(training.size())); asked > 0)
+    options.epochs = std::clamp(asked, 1, spec.train.epochs);
   report("train", 0, options.epochs);
   learn::TrainResult trained = learn::train(
       training, options, [&](const learn::EpochProgress& epoch) { report("train", epoch.epoch, epoch.epochs); });

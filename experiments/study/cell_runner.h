@@ -91,6 +91,11 @@ std::vector<int> purchase_order(std::uint64_t seed, int repeat, int pool);
 // A cell's identity columns (key, factors, spec) with no results yet.
 CellResult cell_record(const CellSpec& spec, const std::string& status);
 
+// The epochs spec.training_images asks of a cell that trains on `labels` labels:
+// round(training_images / labels). run_cell trains that many, clamped to 1 .. train.epochs; 0 when
+// the cell trains train.epochs regardless (no training_images, a classical strategy, no labels).
+int epochs_asked(const CellSpec& spec, int labels);
+
 // Throws UserError for a failure the study can cause (training diverged, labels the strategy
 // cannot use); the runner records it and goes on.
 CellResult run_cell(const CellSpec& spec, CohortCache* cache = nullptr,

@@ -1,7 +1,6 @@
 #include "experiments/study/study_runner.h"
 
 #include <chrono>
-#include <cmath>
 #include <cstdio>
 #include <set>
 
@@ -41,13 +40,6 @@ std::string describe(const CellSpec& cell) {
   const std::string unit = cell.budget_unit == BudgetUnit::hours ? " h" : " labels";
   return cell.plan.name + " / " + learn::to_string(cell.train.strategy) + " / " + format_number(cell.budget) + unit +
          " / repeat " + std::to_string(cell.repeat + 1);
-}
-
-// The epochs training_images asks of a cell that bought `labels` (cell_runner's rule before its
-// clamp to train.epochs); 0 when the cell trains train.epochs regardless.
-int epochs_asked(const CellSpec& cell, int labels) {
-  if (cell.training_images <= 0 || labels <= 0 || learn::is_classical(cell.train.strategy)) return 0;
-  return static_cast<int>(std::lround(static_cast<double>(cell.training_images) / labels));
 }
 
 RunSummary run_study(const StudyOptions& study, const RunOptions& options) {
@@ -108,6 +100,7 @@ RunSummary run_study(const StudyOptions& study, const RunOptions& options) {
       summary.failures.push_back(describe(cell) + ": " + result.error);
     } else {
       ++summary.done;
+      // The cell trained one label row per label bought (cell_runner), so this is its own rule.
       if (const int asked = epochs_asked(cell, result.labels_bought); asked > cell.train.epochs)
         summary.epoch_capped.push_back(describe(cell) + ": " + std::to_string(cell.train.epochs) + " epochs of the " +
                                        std::to_string(asked) + " asked");
